@@ -85,11 +85,14 @@ export const FLAG_EXPLORED = 4;
 /** The weights in force from a row of a step block on: [rowInBlock, onlineId, targetId]. */
 export type WeightsRun = [row: number, onlineId: string, targetId: string];
 
-/** A step block decoded into typed arrays: N rows, state row-major N×D, q row-major N×A. */
+/**
+ * A step block decoded into typed arrays. A block holds consecutive steps of one episode:
+ * rows are steps firstStep, firstStep+1, …; state is row-major N×D and q row-major N×A.
+ */
 export interface StepColumns {
   n: number;
-  episode: Uint32Array;
-  step: Uint32Array;
+  episode: number;
+  firstStep: number;
   state: Float32Array;
   action: Uint32Array;
   reward: Float32Array;
@@ -98,5 +101,6 @@ export interface StepColumns {
   /** NaN where a step had no ε; null when no step in the block had one. */
   epsilon: Float32Array | null;
   extras: Record<string, Float32Array>;
+  /** Sorted by row; the first run starts at row 0. */
   weights: WeightsRun[];
 }

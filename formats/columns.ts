@@ -1,0 +1,104 @@
+/**
+ * Arrays inside record payloads: raw little-endian bytes with a dtype and a shape, optionally byte
+ * shuffled and deflated. Never lists of numbers: a list costs 5–9 bytes per float and a parse per
+ * element, raw bytes cost 4 and a copy.
+ */
+import { deflateSync, inflateSync } from 'fflate';
+import { shuffleBytes, unshuffleBytes } from './shuffle.ts';
+
+export type DType = 'u8' | 'u16' | 'u32' | 'i32' | 'f32' | 'f64';
+export type TypedArray = Uint8Array | Uint16Array | Uint32Array | Int32Array | Float32Array | Float64Array;
+
+export const DTYPE_SIZE: Record<DType, number> = { u8: 1, u16: 2, u32: 4, i32: 4, f32: 4, f64: 8 };
+const CTORS = {
+  u8: Uint8Array,
+  u16: Uint16Array,
+  u32: Uint32Array,
+  i32: Int32Array,
+  f32: Float32Array,
+  f64: Float64Array,
+} as const;
+
+export const CODEC_SHUFFLE_DEFLATE = 'shuffle-deflate';
+
+/** The wire form of one array (a MessagePack map). */
+export interface WireArray {
+  dtype: DType;
+  shape: number[];
+  data: Uint8Array;
+  codec?: typeof CODEC_SHUFFLE_DEFLATE;
+}
+
+if (new Uint8Array(new Uint16Array([1]).buffer)[0] !== 1) {
+  throw new Error('episcope needs a little-endian machine: step files store arrays as little-endian bytes');
+}
+
+export function dtypeOf(a: TypedArray): DType {
+  if (a instanceof Float32Array) return 'f32';
+  if (a instanceof Float64Array) return 'f64';
+  if (a instanceof Uint32Array) return 'u32';
+  if (a instanceof Int32Array) return 'i32';
+  if (a instanceof Uint16Array) return 'u16';
+  return 'u8';
+}
+
+export function bytesOf(a: TypedArray): Uint8Array {
+  return new Uint8Array(a.buffer, a.byteOffset, a.byteLength);
+}
+
+/** deflate level 1: the columns are written on the recorder's hot path, and level 1 already gets most of the gain. */
+export function encodeArray(a: TypedArray, shape: number[], compress = false): WireArray {
+  const dtype = dtypeOf(a);
+  const raw = bytesOf(a);
+  if (!compress || raw.length === 0) return { dtype, shape, data: raw };
+  const packed = deflateSync(shuffleBytes(raw, DTYPE_SIZE[dtype]), { level: 1 });
+  // Incompressible data (noise in the low mantissa bits) stays raw: never pay for a codec that loses.
+  if (packed.length >= raw.length) return { dtype, shape, data: raw };
+  return { dtype, shape, data: packed, codec: CODEC_SHUFFLE_DEFLATE };
+}
+
+/**
+ * Decode a wire array into a fresh, aligned typed array. Throws a plain Error with a short reason;
+ * the caller knows the file and offset and wraps it.
+ */
+export function decodeArray(w: unknown, what: string, maxBytes: number): TypedArray {
+  if (!isWireArray(w)) throw new Error(`${what}: expected {dtype, shape, data}`);
+  const size = DTYPE_SIZE[w.dtype];
+  let count = 1;
+  for (const d of w.shape) {
+    if (!Number.isInteger(d) || d < 0) throw new Error(`${what}: shape ${JSON.stringify(w.shape)} is not a list of counts`);
+    count *= d;
+  }
+  const want = count * size;
+  let raw = w.data;
+  if (w.codec === CODEC_SHUFFLE_DEFLATE) {
+    // The inflated size is known from the shape; refuse shapes that would exceed what a file could hold.
+    if (want > maxBytes) throw new Error(`${what}: shape ${JSON.stringify(w.shape)} needs ${want} bytes, more than allowed (${maxBytes})`);
+    let inflated: Uint8Array;
+    try {
+      inflated = inflateSync(raw, { out: new Uint8Array(want) });
+    } catch (e) {
+      throw new Error(`${what}: deflate stream is damaged (${(e as Error).message})`);
+    }
+    if (inflated.length !== want) throw new Error(`${what}: inflates to ${inflated.length} bytes, shape needs ${want}`);
+    raw = unshuffleBytes(inflated, size);
+  } else if (w.codec !== undefined) {
+    throw new Error(`${what}: unknown codec ${JSON.stringify(w.codec)} (expected "${CODEC_SHUFFLE_DEFLATE}" or none)`);
+  } else if (raw.length !== want) {
+    throw new Error(`${what}: holds ${raw.length} bytes, shape ${JSON.stringify(w.shape)} of ${w.dtype} needs ${want}`);
+  }
+  const out = new CTORS[w.dtype](count);
+  new Uint8Array(out.buffer).set(raw);
+  return out;
+}
+
+function isWireArray(w: unknown): w is WireArray {
+  if (typeof w !== 'object' || w === null) return false;
+  const o = w as Record<string, unknown>;
+  return (
+    typeof o.dtype === 'string' &&
+    Object.prototype.hasOwnProperty.call(DTYPE_SIZE, o.dtype) &&
+    Array.isArray(o.shape) &&
+    o.data instanceof Uint8Array
+  );
+}
