@@ -31,8 +31,8 @@ export interface Header {
   createdAt?: string;
 }
 
-export type Activation = 'linear' | 'relu' | 'tanh' | 'sigmoid' | 'elu' | 'softplus' | 'leaky_relu';
-export const ACTIVATIONS: readonly Activation[] = ['linear', 'relu', 'tanh', 'sigmoid', 'elu', 'softplus', 'leaky_relu'];
+export type Activation = 'linear' | 'relu' | 'tanh' | 'sigmoid' | 'elu' | 'softplus';
+export const ACTIVATIONS: readonly Activation[] = ['linear', 'relu', 'tanh', 'sigmoid', 'elu', 'softplus'];
 
 /** One dense layer: y = activation(x · W + b), W stored row-major as [inputs][outputs]. */
 export interface DenseLayer {
