@@ -1,0 +1,2 @@
+/** Commands that load heavy modules (TensorFlow.js) register here, so `summary` starts fast. */
+export {};
