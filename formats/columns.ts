@@ -3,7 +3,7 @@
  * shuffled and deflated. Never lists of numbers: a list costs 5–9 bytes per float and a parse per
  * element, raw bytes cost 4 and a copy.
  */
-import { deflateSync, inflateSync } from 'fflate';
+import { deflateRaw, inflateRaw } from './deflate.ts';
 import { shuffleBytes, unshuffleBytes } from './shuffle.ts';
 
 export type DType = 'u8' | 'u16' | 'u32' | 'i32' | 'f32' | 'f64';
@@ -51,14 +51,14 @@ export function encodeArray(a: TypedArray, shape: number[], compress = false): W
   const dtype = dtypeOf(a);
   const raw = bytesOf(a);
   if (!compress || raw.length === 0) return { dtype, shape, data: raw };
-  const packed = deflateSync(shuffleBytes(raw, DTYPE_SIZE[dtype]), { level: 1 });
+  const packed = deflateRaw(shuffleBytes(raw, DTYPE_SIZE[dtype]), 1);
   // Incompressible data (noise in the low mantissa bits) stays raw: never pay for a codec that loses.
   if (packed.length >= raw.length) return { dtype, shape, data: raw };
   return { dtype, shape, data: packed, codec: CODEC_SHUFFLE_DEFLATE };
 }
 
 /**
- * Decode a wire array into a fresh, aligned typed array. Throws a plain Error with a short reason;
+ * Decode a wire array into an aligned typed array (a view of the payload when its bytes are aligned). Throws a plain Error with a short reason;
  * the caller knows the file and offset and wraps it.
  */
 export function decodeArray(w: unknown, what: string, maxBytes: number): TypedArray {
@@ -76,7 +76,7 @@ export function decodeArray(w: unknown, what: string, maxBytes: number): TypedAr
     if (want > maxBytes) throw new Error(`${what}: shape ${JSON.stringify(w.shape)} needs ${want} bytes, more than allowed (${maxBytes})`);
     let inflated: Uint8Array;
     try {
-      inflated = inflateSync(raw, { out: new Uint8Array(want) });
+      inflated = inflateRaw(raw, want);
     } catch (e) {
       throw new Error(`${what}: deflate stream is damaged (${(e as Error).message})`);
     }
@@ -87,6 +87,9 @@ export function decodeArray(w: unknown, what: string, maxBytes: number): TypedAr
   } else if (raw.length !== want) {
     throw new Error(`${what}: holds ${raw.length} bytes, shape ${JSON.stringify(w.shape)} of ${w.dtype} needs ${want}`);
   }
+  // Bytes that happen to sit on an element boundary are viewed where they lie; others are copied
+  // to an aligned array. Either way the result is the caller's to read, not to write.
+  if (raw.byteOffset % size === 0) return new CTORS[w.dtype](raw.buffer, raw.byteOffset, count);
   const out = new CTORS[w.dtype](count);
   new Uint8Array(out.buffer).set(raw);
   return out;

@@ -135,6 +135,15 @@ export class StepFile {
 
   readEpisode(episode: number): EpisodeSteps {
     const info = this.episode(episode);
+    const blocks = info.blocks.map((bi) => this.readBlock(bi));
+    // Most episodes fit one block: hand its freshly decoded arrays over rather than copy them again.
+    if (blocks.length === 1 && this.header.extras.every((x) => x in blocks[0].extras)) {
+      const b = blocks[0];
+      const step = new Uint32Array(b.n);
+      for (let i = 0; i < b.n; i++) step[i] = b.firstStep + i;
+      const { n, state, action, reward, flags, q, epsilon, extras, weights } = b;
+      return { episode, n, step, state, action, reward, flags, q, epsilon, extras, weights, end: info.end };
+    }
     const D = this.header.stateDims.length;
     const A = this.header.actions.length;
     const n = info.length;
@@ -153,8 +162,7 @@ export class StepFile {
       end: info.end,
     };
     let row = 0;
-    for (const bi of info.blocks) {
-      const b = this.readBlock(bi);
+    for (const b of blocks) {
       for (let i = 0; i < b.n; i++) out.step[row + i] = b.firstStep + i;
       out.state.set(b.state, row * D);
       out.action.set(b.action, row);

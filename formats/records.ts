@@ -204,7 +204,9 @@ export function decodeBlock(bytes: Uint8Array, header: Header, maxBytes: number)
   if (!(actionRaw instanceof Uint8Array || actionRaw instanceof Uint16Array || actionRaw instanceof Uint32Array) || actionRaw.length !== n) {
     throw new Error(`step block.action: expected ${n} unsigned integers`);
   }
-  const action = actionRaw instanceof Uint32Array ? actionRaw : Uint32Array.from(actionRaw);
+  let action: Uint32Array;
+  if (actionRaw instanceof Uint32Array) action = actionRaw;
+  else (action = new Uint32Array(n)).set(actionRaw);
   for (let i = 0; i < n; i++) {
     if (action[i] >= A) throw new Error(`step block.action[${i}]: ${action[i]} is not an action index below ${A}`);
   }
