@@ -89,7 +89,7 @@ export function decodeArray(w: unknown, what: string, maxBytes: number): TypedAr
   }
   // Bytes that happen to sit on an element boundary are viewed where they lie; others are copied
   // to an aligned array. Either way the result is the caller's to read, not to write.
-  if (raw.byteOffset % size === 0) return new CTORS[w.dtype](raw.buffer, raw.byteOffset, count);
+  if (raw.byteOffset % size === 0) return new CTORS[w.dtype](raw.buffer as ArrayBuffer, raw.byteOffset, count);
   const out = new CTORS[w.dtype](count);
   new Uint8Array(out.buffer).set(raw);
   return out;
