@@ -6,7 +6,7 @@ import type { CommandIO } from './io.ts';
 import { openForCommand, recoveryLines } from './open.ts';
 import type { StepFile } from '../../formats/reader.ts';
 
-export const summaryUsage = 'episcope summary FILE [--json]';
+export const summaryUsage = 'episcope summary FILE… [--json]';
 
 export interface FileSummary {
   file: string;
@@ -32,14 +32,15 @@ export function summarise(file: StepFile): FileSummary {
 }
 
 export function summaryCommand(argv: string[], io: CommandIO): void {
-  const { values, positionals } = parse('summary', argv, { json: { type: 'boolean' } }, { min: 1, max: 1, names: 'a step file: ' + summaryUsage });
-  const file = openForCommand('summary', positionals[0]);
+  const { values, positionals } = parse('summary', argv, { json: { type: 'boolean' } }, { min: 1, max: Infinity, names: 'a step file: ' + summaryUsage });
+  // Open every file first, so that a bad name fails before any output.
+  const files = positionals.map((p) => openForCommand('summary', p));
   try {
-    const s = summarise(file);
-    if (values.json) io.out(JSON.stringify(s, jsonReplacer, 1) + '\n');
-    else io.out(renderSummary(s) + '\n');
+    const all = files.map(summarise);
+    if (values.json) io.out(JSON.stringify(all.length === 1 ? all[0] : all, jsonReplacer, 1) + '\n');
+    else io.out(all.map(renderSummary).join('\n\n') + '\n');
   } finally {
-    file.close();
+    for (const f of files) f.close();
   }
 }
 

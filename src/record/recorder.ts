@@ -208,14 +208,17 @@ class StepRecorder implements Recorder {
     }
     checkLayers(input.layers, this.D, this.A);
     const layers = input.layers.map((l) => ({ ...l, weights: Float32Array.from(l.weights), bias: Float32Array.from(l.bias) }));
+    if (input.store !== undefined && typeof input.store !== 'boolean') throw new RecordError('snapshot', 'store', `is ${typeof input.store}; expected true or false`);
     const id = snapshotId(layers);
-    this.guard(() => this.writer.writeSnapshot({ role: input.role, trainingStep: input.trainingStep, id, layers }));
+    if (input.store ?? true) {
+      this.guard(() => this.writer.writeSnapshot({ role: input.role, trainingStep: input.trainingStep, id, layers }));
+      this.stats.snapshots++;
+    }
     if (input.inForce ?? true) {
       if (input.role === 'online') this.onlineId = id;
       else this.targetId = id;
       this.markWeights();
     }
-    this.stats.snapshots++;
     this.stats.bytesWritten = this.writer.bytesWritten;
     return id;
   }

@@ -32,6 +32,12 @@ export interface SnapshotInput {
   layers: DenseLayer[];
   /** Whether these weights are now the ones in force for `role` (default true). */
   inForce?: boolean;
+  /**
+   * Write the weights into the file (default true). With false, only their id is computed and
+   * put in force: the step blocks still say exactly when the weights changed, without the file
+   * growing by a network at every change (a target synced every few updates).
+   */
+  store?: boolean;
 }
 
 export interface NoteInput {
