@@ -1,0 +1,1 @@
+export const demoUsage = 'episcope demo [--out DIR] [--only NAME] [--quick]';
