@@ -23,5 +23,8 @@ export function deflateRaw(data: Uint8Array, level: 1 | 6 | 9 = 1): Uint8Array {
 /** Inflate to exactly `size` bytes at most; a stream that would exceed it is an error, not an allocation. */
 export function inflateRaw(data: Uint8Array, size: number): Uint8Array {
   if (zlib) return zlib.inflateRawSync(data, { maxOutputLength: Math.max(size, 1) });
-  return inflateSync(data, { out: new Uint8Array(size) });
+  // One byte of room past `size`: a stream that fills it is longer than the shape allows.
+  const out = inflateSync(data, { out: new Uint8Array(size + 1) });
+  if (out.length > size) throw new Error(`inflates to more than the ${size} bytes its shape allows`);
+  return out;
 }

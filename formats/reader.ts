@@ -56,7 +56,10 @@ export interface EpisodeInfo {
   missingSteps: number;
 }
 
-/** An episode's steps gathered into one set of columns. */
+/**
+ * An episode's steps gathered into one set of columns. The arrays may share memory with the file's
+ * bytes (they are views where the stored bytes are aligned): read them, copy before writing.
+ */
 export interface EpisodeSteps {
   episode: number;
   n: number;

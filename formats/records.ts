@@ -19,7 +19,7 @@ import {
   type WeightsRun,
 } from './types.ts';
 
-const packr = new Packr({ useRecords: false, variableMapSize: true, moreTypes: false });
+const packr = new Packr({ useRecords: false, variableMapSize: true, moreTypes: false, encodeUndefinedAsNil: true });
 const unpackr = new Unpackr({ useRecords: false, mapsAsObjects: true, int64AsType: 'number' });
 
 export function pack(value: unknown): Uint8Array {

@@ -86,7 +86,7 @@ export const FLAG_EXPLORED = 4;
 export type WeightsRun = [row: number, onlineId: string, targetId: string];
 
 /**
- * A step block decoded into typed arrays. A block holds consecutive steps of one episode:
+ * A step block decoded into typed arrays (read-only: they may be views of the file's bytes). A block holds consecutive steps of one episode:
  * rows are steps firstStep, firstStep+1, …; state is row-major N×D and q row-major N×A.
  */
 export interface StepColumns {

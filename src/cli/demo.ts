@@ -38,15 +38,15 @@ export const DEMO_RUNS: readonly DemoRun[] = [
   },
   {
     name: 'trolley-fast-sync',
-    purpose: 'balancing trolley with the target synced after every update and a large step size: the values blow up',
+    purpose: 'balancing trolley with the target synced every 4 updates (100 times too often) and a large step size: the values blow up',
     system: 'cart-pole',
     systemSeed: 12,
     settings: {
       seed: 12,
       hiddenLayers: [32, 32],
       totalSteps: 12_000,
-      targetSync: 1,
-      snapshotEverySyncs: 500,
+      targetSync: 4,
+      snapshotEverySyncs: 125,
       learningRate: 0.01,
       gamma: 0.999,
       huberDelta: 1_000,
@@ -58,7 +58,7 @@ export const DEMO_RUNS: readonly DemoRun[] = [
   },
   {
     name: 'rover',
-    purpose: 'crater rover learning to rock itself out of the crater to the rim',
+    purpose: 'crater rover whose ε-greedy exploration never once reaches the rim: every episode ends at the time limit and Q only learns the battery drain',
     system: 'mountain-car',
     systemSeed: 21,
     settings: {

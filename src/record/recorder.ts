@@ -65,7 +65,16 @@ class StepRecorder implements Recorder {
     header: RecorderHeader,
     options: RecorderOptions,
   ) {
-    const full: Header = { version: FORMAT_VERSION, extras: [], run: {}, createdAt: new Date().toISOString(), ...header };
+    const full: Header = {
+      version: FORMAT_VERSION,
+      stateDims: header.stateDims,
+      actions: header.actions,
+      gamma: header.gamma,
+      system: header.system,
+      extras: header.extras ?? [],
+      run: plainRunInfo(header.run),
+      createdAt: header.createdAt ?? new Date().toISOString(),
+    };
     checkHeader(full);
     this.D = full.stateDims.length;
     this.A = full.actions.length;
@@ -254,6 +263,8 @@ class StepRecorder implements Recorder {
   private flush(): void {
     const b = this.block;
     if (b.n === 0) return;
+    // Weights that came into force after the block's last step belong to the next block, which starts with them.
+    b.weights = b.weights.filter((run) => run[0] < b.n);
     this.guard(() => this.writer.writeBlock(b));
     this.episodeStepsWritten += b.n;
     b.n = 0;
@@ -275,6 +286,20 @@ class StepRecorder implements Recorder {
       this.broken = e as Error;
       throw e;
     }
+  }
+}
+
+/**
+ * Run info as plain data: a JSON round trip turns dates into ISO strings and drops undefined, so
+ * the header holds only standard MessagePack types that any reader decodes.
+ */
+function plainRunInfo(run: Record<string, unknown> | undefined): Record<string, unknown> {
+  if (run === undefined) return {};
+  if (typeof run !== 'object' || run === null || Array.isArray(run)) throw new RecordError('createRecorder', 'header.run', 'expected a map of facts about the run');
+  try {
+    return JSON.parse(JSON.stringify(run)) as Record<string, unknown>;
+  } catch (e) {
+    throw new RecordError('createRecorder', 'header.run', `cannot be stored: ${(e as Error).message}`);
   }
 }
 
