@@ -73,7 +73,8 @@ export const DEMO_RUNS: readonly DemoRun[] = [
   },
 ];
 
-export { demoUsage } from './demo-usage.ts';
+import { demoUsage } from './usage.ts';
+export { demoUsage };
 
 /** A short run of every sample's recipe, for smoke tests: the same code path, a few seconds each. */
 const QUICK: Partial<DqnSettings> = { totalSteps: 1_500, replayStart: 300, evalEvery: 700, evalEpisodes: 1, epsilonDecaySteps: 1_000 };
