@@ -1,6 +1,6 @@
 /** Commands that load heavy modules (TensorFlow.js) are imported only when they run, so `summary` starts fast. */
 import { registerCommand } from './main.ts';
-import { demoUsage } from './demo-usage.ts';
+import { demoUsage } from './usage.ts';
 
 registerCommand('demo', {
   run: async (argv, io) => (await import('./demo.ts')).demoCommand(argv, io),
