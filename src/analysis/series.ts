@@ -27,6 +27,8 @@ export interface EpisodeSeries {
   /** Q(s_t, ·) judged: recorded, or recomputed from the online snapshot (N×A). */
   q: Float32Array;
   qSource: 'recorded' | 'online snapshot';
+  /** The action taken at each step, as recorded. */
+  actions: Uint32Array;
   greedy: Int32Array;
   /** 1 where the greedy action differs from the previous step's. */
   flips: Uint8Array;
@@ -101,6 +103,7 @@ export function episodeSeries(e: EpisodeSteps, header: Header, options: SeriesOp
     n: N,
     q,
     qSource: options.online ? 'online snapshot' : 'recorded',
+    actions: e.action,
     greedy,
     flips: greedyFlips(greedy),
     gap: actionGaps(q, A),

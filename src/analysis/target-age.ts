@@ -49,7 +49,8 @@ export function targetTimeline(file: StepFile): TargetTimeline {
           if (id !== current) {
             current = id;
             lastChange = fileStep + (counts ? i : 0);
-            changes.push({ episode: info.episode, step: b.firstStep + i, fileStep: lastChange, targetId: id });
+            // Steps before any target was recorded ('' in force) are not a change of weights.
+            if (id !== '') changes.push({ episode: info.episode, step: b.firstStep + i, fileStep: lastChange, targetId: id });
           }
           r++;
         }
