@@ -6,6 +6,7 @@
 import * as tf from '@tensorflow/tfjs';
 import { ACTIVATIONS, type Activation, type DenseLayer } from '../../formats/types.ts';
 import type { HiddenActivation } from './settings.ts';
+import { activate } from '../net/tf-activate.ts';
 
 export interface NetworkShape {
   /** State dimensions D. */
@@ -82,11 +83,25 @@ export function qValues(model: tf.LayersModel, states: Float32Array, n: number):
   if (!Number.isInteger(inputs)) throw new RangeError(`qValues: ${states.length} values do not make ${n} states`);
   let q!: Float32Array;
   tf.tidy(() => {
-    const out = model.apply(tf.tensor2d(states, [n, inputs])) as tf.Tensor;
+    // Layer by layer rather than model.apply: the wasm backend's fused and plain relu turn NaN into
+    // 0, which would record a diverged network's Q as finite. These are the values episcope records.
+    let h: tf.Tensor2D = tf.tensor2d(states, [n, inputs]);
+    for (const layer of model.layers) {
+      const [kernel, bias] = layer.getWeights() as tf.Tensor2D[];
+      h = tf.matMul(h, kernel);
+      if (bias) h = tf.add(h, bias);
+      h = activate(h, activationOf(layer), true);
+    }
     // dataSync may return the backend's own buffer (cpu) — fine, the tensor is freed right after.
-    q = out.dataSync() as Float32Array;
+    q = Float32Array.from(h.dataSync() as Float32Array);
   });
   return q;
+}
+
+function activationOf(layer: tf.layers.Layer): Activation {
+  const name = String((layer.getConfig() as { activation?: string }).activation ?? 'linear');
+  if (!(ACTIVATIONS as readonly string[]).includes(name)) throw new Error(`qValues: layer ${layer.name} has activation ${name}, which episcope does not record`);
+  return name as Activation;
 }
 
 /**

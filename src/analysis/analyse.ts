@@ -11,6 +11,8 @@ import type { TdOptions } from './td.ts';
 
 export interface FileAnalysisOptions {
   target?: QFunction | null;
+  /** A target network per episode (the one in force, say); takes precedence over `target`. */
+  targetFor?: (episode: number) => QFunction | null;
   online?: QFunction | null;
   td?: Partial<TdOptions>;
 }
@@ -58,7 +60,8 @@ export function analyseFile(file: StepFile, options: FileAnalysisOptions = {}, e
   const episodes: EpisodeVerdict[] = [];
   for (const info of file.episodes) {
     const steps = file.readEpisode(info.episode);
-    const series = episodeSeries(steps, file.header, options);
+    const target = options.targetFor ? options.targetFor(info.episode) : (options.target ?? null);
+    const series = episodeSeries(steps, file.header, { ...options, target });
     each?.(series);
     const found = rankSuspects(episodeSuspects(series, info.end, steps.step, ctx));
     all.push(...found);
@@ -82,6 +85,6 @@ export function analyseFile(file: StepFile, options: FileAnalysisOptions = {}, e
     cadence: targetTimeline(file).cadence,
     episodes,
     suspects: rankSuspects(all),
-    tdRule: options.target ? (options.td?.rule ?? 'dqn') : null,
+    tdRule: options.target || options.targetFor ? (options.td?.rule ?? 'dqn') : null,
   };
 }

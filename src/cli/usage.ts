@@ -1,1 +1,6 @@
+/** Usage lines, apart from the commands themselves, so the help text loads none of their modules. */
 export const demoUsage = 'episcope demo [--out DIR] [--only NAME] [--quick]';
+export const tdUsage = 'episcope td FILE --target SNAP [--episode E] [--rule dqn|double|nstep] [--n N] [--gamma G] [--truncation bootstrap|terminal] [--online SNAP] [--json]';
+export const suspectsUsage = 'episcope suspects FILE [--target SNAP] [--top K] [--rule dqn|double|nstep] [--n N] [--gamma G] [--truncation bootstrap|terminal] [--json]';
+export const healthUsage = 'episcope health FILE [--states K] [--json]';
+export const viewUsage = 'episcope view FILE… [--target SNAP] [--port P]';

@@ -86,3 +86,18 @@ describe('Q-network', () => {
     });
   });
 });
+
+describe('qValues keeps the evidence of a diverged network', () => {
+  it('returns NaN, not 0, when a weight is NaN (the wasm relu alone would zero it)', () => {
+    const model = buildQNetwork({ inputs: 2, hidden: [4], outputs: 2, activation: 'relu', seed: 3 });
+    const [kernel, bias] = model.layers[0].getWeights();
+    const k = kernel.arraySync() as number[][];
+    // ∞ − ∞ makes a NaN with its sign bit set: the kind the wasm relu turns into 0.
+    k[0][0] = Infinity;
+    k[1][0] = -Infinity;
+    model.layers[0].setWeights([tf.tensor2d(k), bias]);
+    const q = qValues(model, new Float32Array([1, 1]), 1);
+    expect(Array.from(q).some(Number.isNaN)).toBe(true);
+    model.dispose();
+  });
+});
