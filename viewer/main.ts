@@ -1,0 +1,9 @@
+import { mount } from 'svelte';
+import App from './App.svelte';
+import { cssVariables } from './theme.ts';
+import './app.css';
+
+// The palette lives in theme.ts alone; styles read it through CSS variables set here.
+for (const [name, value] of Object.entries(cssVariables())) document.documentElement.style.setProperty(name, value);
+
+mount(App, { target: document.getElementById('app')! });
