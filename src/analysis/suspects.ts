@@ -40,6 +40,7 @@ export const levelOf = (severity: number): Suspect['level'] => (severity >= 70 ?
 const TD_SPIKE_FACTOR = 10;
 const FLIP_WINDOW = 20;
 const OVERESTIMATE_SLACK = 2;
+const OVERESTIMATE_FRACTION = 0.25;
 
 export function episodeSuspects(s: EpisodeSeries, end: EpisodeEnd | null, steps: Uint32Array, ctx: SuspectContext): Suspect[] {
   const out: Suspect[] = [];
@@ -105,9 +106,10 @@ export function episodeSuspects(s: EpisodeSeries, end: EpisodeEnd | null, steps:
   // overestimate-before-failure: from some step on, Q(s,a) stays above the realised return until
   // the failure. "Stays" is judged on the value error averaged over 5 steps (a single step under the
   // threshold does not end the run), and the run may stop up to OVERESTIMATE_SLACK steps short of
-  // the failure, where the values finally see it coming.
+  // the failure, where the values finally see it coming. Only failed episodes are judged, so the
+  // threshold can be a quarter of the largest reward without raising alarms in healthy ones.
   if (failedAtEnd) {
-    const tau = 0.5 * ctx.rMax;
+    const tau = OVERESTIMATE_FRACTION * ctx.rMax;
     const smooth = movingMean(s.valueError, 2);
     let last = N - 1;
     while (last >= N - 1 - OVERESTIMATE_SLACK && last >= 0 && !(smooth[last] > tau)) last--;
@@ -124,7 +126,7 @@ export function episodeSuspects(s: EpisodeSeries, end: EpisodeEnd | null, steps:
         t0,
         last,
         t0,
-        `from step ${at(t0)} ${until} (${end!.reason || 'terminal'}), Q(s, a) stays above the realised return by more than ${fmt(tau)} (½·r_max), by ${fmt(mean)} on average: the values did not see the failure coming`,
+        `from step ${at(t0)} ${until} (${end!.reason || 'terminal'}), Q(s, a) stays above the realised return by more than ${fmt(tau)} (¼·r_max), by ${fmt(mean)} on average: the values did not see the failure coming`,
         { threshold: tau, meanExcess: mean, steps: last - t0 + 1 },
       );
     }

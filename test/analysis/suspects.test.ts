@@ -87,7 +87,8 @@ describe('suspects on trolley.steps', () => {
   it('has evaluation episodes of both kinds, as the sample is described', () => {
     expect(failing.length).toBeGreaterThan(0);
     expect(healthy.length).toBeGreaterThan(0);
-    for (const e of failing) expect(e.end!.reason).toBe('mast fell');
+    // The balancing trolley fails in one of its two ways (src/envs/cartpole.ts).
+    for (const e of failing) expect(['mast fell', 'trolley left the rail']).toContain(e.end!.reason);
     for (const e of healthy) expect(e.end!.outcome).toBe('truncated');
   });
 

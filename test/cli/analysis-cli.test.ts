@@ -12,6 +12,18 @@ const ROOT = join(import.meta.dirname, '..', '..');
 const BIN = join(ROOT, 'bin', 'episcope.js');
 const TROLLEY = join(ROOT, 'samples', 'trolley.steps');
 const FAST = join(ROOT, 'samples', 'trolley-fast-sync.steps');
+/** Episodes of the trolley sample found from its own records, never numbers copied from output. */
+const trolley = (() => {
+  const f = openStepFilePath(TROLLEY);
+  const evals = f.episodes.filter((e) => e.end?.mode === 'eval');
+  const out = {
+    count: f.episodes.length,
+    failingEval: evals.find((e) => e.end!.failed && e.end!.outcome === 'terminal')!.episode,
+    truncatedEval: evals.find((e) => e.end!.outcome === 'truncated')!.episode,
+  };
+  f.close();
+  return out;
+})();
 const run = (...args: string[]) => spawnSync(process.execPath, [BIN, ...args], { encoding: 'utf8', env: { ...process.env, NO_COLOR: '1' } });
 
 /** y = x·W + b through each layer; relu or linear, as the samples use. */
@@ -31,7 +43,7 @@ function forward(layers: DenseLayer[], x: ArrayLike<number>): number[] {
 
 describe('episcope td', () => {
   it('gives each step the DQN target r + γ·max Q_target(s′) and δ = y − Q(s, a), computed independently', () => {
-    const r = run('td', TROLLEY, '--target', `${TROLLEY}#target`, '--episode', '155', '--json');
+    const r = run('td', TROLLEY, '--target', `${TROLLEY}#target`, '--episode', String(trolley.failingEval), '--json');
     expect(r.status).toBe(0);
     const doc = JSON.parse(r.stdout);
     expect(doc.signConvention).toMatch(/δ = y − Q\(s, a\)/);
@@ -39,7 +51,7 @@ describe('episcope td', () => {
     const lastTarget = [...file.snapshots].reverse().find((s) => s.role === 'target')!;
     expect(doc.target.id).toBe(lastTarget.id);
     const layers = file.readSnapshot(lastTarget).layers;
-    const e = file.readEpisode(155);
+    const e = file.readEpisode(trolley.failingEval);
     file.close();
     const steps = doc.episodes[0].steps;
     expect(steps).toHaveLength(e.n);
@@ -64,13 +76,13 @@ describe('episcope td', () => {
     expect(r.status).toBe(0);
     const doc = JSON.parse(r.stdout);
     expect(doc.rule).toBe('double');
-    expect(doc.episodes).toHaveLength(235);
+    expect(doc.episodes).toHaveLength(trolley.count);
     expect(doc.episodes[0]).toHaveProperty('meanAbsDelta');
   });
 
   it('shows how much treating truncation as terminal changes a time-limited episode', () => {
-    const a = JSON.parse(run('td', TROLLEY, '--target', '#target', '--episode', '189', '--json').stdout);
-    const b = JSON.parse(run('td', TROLLEY, '--target', '#target', '--episode', '189', '--truncation', 'terminal', '--json').stdout);
+    const a = JSON.parse(run('td', TROLLEY, '--target', '#target', '--episode', String(trolley.truncatedEval), '--json').stdout);
+    const b = JSON.parse(run('td', TROLLEY, '--target', '#target', '--episode', String(trolley.truncatedEval), '--truncation', 'terminal', '--json').stdout);
     const last = a.episodes[0].steps.length - 1;
     expect(a.episodes[0].steps[last].bootstrapped).toBe(true);
     expect(b.episodes[0].steps[last].bootstrapped).toBe(false);
@@ -121,8 +133,8 @@ describe('episcope suspects', () => {
     expect(r.status).toBe(0);
     expect(r.stdout).toMatch(/Suspects \(3 of \d+, most severe first\)/);
     const rows = r.stdout.split('\n').filter((l) => /^\s+\d+\s+(train|eval)\s/.test(l));
-    expect(rows).toHaveLength(235);
-    expect(rows.find((l) => /^\s+155\s/.test(l))).toMatch(/fail.*overestimate-before-failure at step \d+/);
+    expect(rows).toHaveLength(trolley.count);
+    expect(rows.find((l) => new RegExp(`^\\s+${trolley.failingEval}\\s`).test(l))).toMatch(/fail.*overestimate-before-failure at step \d+/);
   });
 });
 
