@@ -6,6 +6,7 @@
  * Every record is CRC-checked when read, and no length field is trusted past the file's end.
  */
 import { crc32 } from './crc32.ts';
+import { Sha256 } from './sha256.ts';
 import { StepFileError } from './errors.ts';
 import { FRAME_OVERHEAD, KIND_NAMES, Kind, MAGIC, TRAILER_PAYLOAD, TRAILER_SIZE, readU64 } from './frame.ts';
 import { decodeIndex, type BlockRef, type EndRef, type RecordRef, type RecordTables, type SnapshotRef } from './index-record.ts';
@@ -103,6 +104,13 @@ export class StepFile {
   }
   close(): void {
     this.source.close?.();
+  }
+
+  /** SHA-256 of the whole file, read in 1 MiB pieces: names a clip's source exactly. */
+  sha256(): string {
+    const h = new Sha256();
+    for (let at = 0; at < this.source.size; at += 1 << 20) h.update(this.source.read(at, Math.min(1 << 20, this.source.size - at)));
+    return Array.from(h.digest(), (x) => x.toString(16).padStart(2, '0')).join('');
   }
   get blocks(): readonly BlockRef[] {
     return this.tables.blocks;

@@ -1,6 +1,6 @@
 /** Commands that load heavy modules (TensorFlow.js) are imported only when they run, so `summary` starts fast. */
 import { registerCommand } from './main.ts';
-import { demoUsage, healthUsage, suspectsUsage, tdUsage, viewUsage } from './usage.ts';
+import { clipUsage, demoUsage, healthUsage, suspectsUsage, tdUsage, viewUsage } from './usage.ts';
 
 registerCommand('demo', {
   run: async (argv, io) => (await import('./demo.ts')).demoCommand(argv, io),
@@ -27,4 +27,9 @@ registerCommand('view', {
   run: async (argv, io) => (await import('./view.ts')).viewCommand(argv, io),
   usage: viewUsage,
   what: 'scrub through episodes in the viewer, served on 127.0.0.1 (default port 7357)',
+});
+registerCommand('clip', {
+  run: async (argv, io) => (await import('./clip.ts')).clipCommand(argv, io),
+  usage: clipUsage,
+  what: 'cut a short segment into a clip step file or a self-contained clip page to share',
 });

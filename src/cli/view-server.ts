@@ -15,6 +15,8 @@ export interface ServedFile {
 
 export interface ServerOptions {
   root: string;
+  /** The clip viewer's folder (clip.js, clip.css), served under /clip/ so the viewer can export clip pages. */
+  clipRoot?: string;
   files: ServedFile[];
   target: { source: string; id: string; layers: DenseLayer[] } | null;
   port: number;
@@ -59,6 +61,14 @@ export async function startViewServer(options: ServerOptions): Promise<{ url: st
       const f = options.files[Number(fileMatch[1])];
       if (!f) return send(res, 404, 'text/plain', 'no such file');
       return send(res, 200, 'application/octet-stream', readFileSync(f.path));
+    }
+    if ((p === '/clip/clip.js' || p === '/clip/clip.css') && options.clipRoot) {
+      const full = join(options.clipRoot, basename(p));
+      try {
+        return send(res, 200, TYPES[extname(full)], readFileSync(full));
+      } catch {
+        return send(res, 404, 'text/plain', 'the clip viewer is not built');
+      }
     }
     if (p === '/api/target' && options.target) {
       const layers = options.target.layers.map((l) => ({ ...l, weights: Array.from(l.weights), bias: Array.from(l.bias) }));

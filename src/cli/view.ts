@@ -7,7 +7,7 @@ import { checkSnapshotFits, loadSnapshotSpec } from '../net/index.ts';
 import { UsageError, intFlag, parse } from './args.ts';
 import type { CommandIO } from './io.ts';
 import { viewUsage } from './usage.ts';
-import { VIEWER_DIST, ensureViewerBuilt } from './viewer-build.ts';
+import { CLIP_DIST, VIEWER_DIST, ensureClipBuilt, ensureViewerBuilt } from './viewer-build.ts';
 import { startViewServer } from './view-server.ts';
 
 export async function viewCommand(argv: string[], io: CommandIO): Promise<void> {
@@ -43,7 +43,8 @@ export async function viewCommand(argv: string[], io: CommandIO): Promise<void> 
     return { path: o.path, name };
   });
   await ensureViewerBuilt((l) => io.err(l + '\n'));
-  const server = await startViewServer({ root: VIEWER_DIST, files, target, port });
+  await ensureClipBuilt((l) => io.err(l + '\n'));
+  const server = await startViewServer({ root: VIEWER_DIST, clipRoot: CLIP_DIST, files, target, port });
   io.out(`episcope view: ${files.map((f) => f.name).join(', ')} at ${server.url}  (loopback only; Ctrl+C stops)\n`);
   // Serve until the process is stopped.
   await new Promise<void>((resolve) => {

@@ -8,6 +8,8 @@ import { fileURLToPath } from 'node:url';
 
 export const PROJECT = fileURLToPath(new URL('../..', import.meta.url));
 export const VIEWER_DIST = join(PROJECT, 'dist', 'viewer');
+/** The single-file viewer a clip page carries (`vite build --mode clip`). */
+export const CLIP_DIST = join(PROJECT, 'dist', 'clip');
 
 function newest(dir: string): number {
   let t = 0;
@@ -18,16 +20,24 @@ function newest(dir: string): number {
   return t;
 }
 
-export function viewerIsStale(): boolean {
-  const index = join(VIEWER_DIST, 'index.html');
-  if (!existsSync(index)) return true;
-  const built = statSync(index).mtimeMs;
-  return ['viewer', 'src', 'formats'].some((d) => newest(join(PROJECT, d)) > built);
+/** A build is stale when its marker file is missing or older than any source it is made from. */
+export function isStale(marker: string): boolean {
+  if (!existsSync(marker)) return true;
+  const built = statSync(marker).mtimeMs;
+  return ['viewer', 'src', 'formats'].some((d) => newest(join(PROJECT, d)) > built) || statSync(join(PROJECT, 'vite.config.ts')).mtimeMs > built;
 }
 
-export async function ensureViewerBuilt(log: (line: string) => void): Promise<void> {
-  if (!viewerIsStale()) return;
-  log('episcope view: building the viewer (once, about 10 s)…');
+async function buildIfStale(marker: string, mode: string, what: string, log: (line: string) => void): Promise<void> {
+  if (!isStale(marker)) return;
+  log(`episcope: building the ${what} (once, a few seconds)…`);
   const { build } = await import('vite');
-  await build({ configFile: join(PROJECT, 'vite.config.ts'), logLevel: 'warn' });
+  await build({ configFile: join(PROJECT, 'vite.config.ts'), mode, logLevel: 'warn' });
+}
+
+export function ensureViewerBuilt(log: (line: string) => void): Promise<void> {
+  return buildIfStale(join(VIEWER_DIST, 'index.html'), 'production', 'viewer', log);
+}
+
+export function ensureClipBuilt(log: (line: string) => void): Promise<void> {
+  return buildIfStale(join(CLIP_DIST, 'clip.js'), 'clip', 'clip viewer', log);
 }

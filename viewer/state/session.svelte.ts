@@ -7,7 +7,7 @@ import { openStepFile, type EpisodeSteps, type StepFile } from '../../formats/re
 import { bytesSource } from '../../formats/source.ts';
 import type { TdOptions } from '../../src/analysis/td.ts';
 import type { AnalysisPayload, SeriesPayload, TargetNet, TargetSpec } from '../worker/protocol.ts';
-import type { AnalysisClient } from '../worker/client.ts';
+import type { Analysis } from '../worker/engine.ts';
 import { decodeHash, encodeHash } from './hash.ts';
 
 export interface LoadedFile {
@@ -45,7 +45,7 @@ export class Session {
   private seriesRequest = 0;
   private analysisRequest = 0;
 
-  constructor(private readonly client: AnalysisClient) {}
+  constructor(private readonly client: Analysis) {}
 
   get current(): LoadedFile | null {
     return this.files[this.fileIndex] ?? null;

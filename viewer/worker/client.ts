@@ -3,9 +3,10 @@
  * request number, so a slow answer for an episode the user already left is dropped, never shown.
  */
 import type { TdOptions } from '../../src/analysis/td.ts';
+import type { Analysis } from './engine.ts';
 import type { AnalysisPayload, FromWorker, SeriesPayload, TargetSpec, ToWorker } from './protocol.ts';
 
-export class AnalysisClient {
+export class AnalysisClient implements Analysis {
   private worker: Worker;
   private next = 1;
   private waiting = new Map<number, { resolve: (v: never) => void; reject: (e: Error) => void }>();
