@@ -312,7 +312,9 @@ function tryIndex(source: ByteSource, name: string): { file?: StepFile; problem:
   if (indexOffset < MAGIC.length || indexOffset + FRAME_OVERHEAD > size - TRAILER_SIZE) {
     return { problem: `the trailer points at byte ${indexOffset}, outside the file` };
   }
-  const indexLength = new DataView(source.read(indexOffset, 4).slice().buffer).getUint32(0, true);
+  const lengthBytes = source.read(indexOffset, 4);
+  // A view at the bytes' own offset: a Node Buffer's slice() is a view of a larger pool, not a copy.
+  const indexLength = new DataView(lengthBytes.buffer, lengthBytes.byteOffset, 4).getUint32(0, true);
   if (indexOffset + FRAME_OVERHEAD + indexLength !== size - TRAILER_SIZE) {
     return { problem: `the index record at byte ${indexOffset} does not end where the trailer begins` };
   }
@@ -423,7 +425,7 @@ function scan(source: ByteSource, name: string, indexProblem: string | null): St
         } else if (kind === Kind.Header) {
           throw new Error('a second header record');
         }
-        // Index and trailer records carry nothing the scan does not rebuild itself.
+        // Index and trailer records are whole records too; their content is rebuilt by the scan itself.
         kept++;
       } catch (e) {
         if (record === 0) throw headerError(e, name, pos);

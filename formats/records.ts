@@ -36,8 +36,11 @@ function obj(v: unknown, what: string): Obj {
   if (typeof v !== 'object' || v === null || Array.isArray(v) || v instanceof Uint8Array) {
     throw new Error(`${what}: expected a map`);
   }
-  // A payload key named __proto__ would reach Object.prototype through property lookups; refuse it.
-  if (Object.prototype.hasOwnProperty.call(v, '__proto__')) throw new Error(`${what}: has a "__proto__" key`);
+  // A payload key named __proto__ either becomes an own key or replaces the map's prototype,
+  // depending on the decoder; refuse both, so that no lookup can reach a planted prototype.
+  if (Object.prototype.hasOwnProperty.call(v, '__proto__') || Object.getPrototypeOf(v) !== Object.prototype) {
+    throw new Error(`${what}: has a "__proto__" key`);
+  }
   return v as Obj;
 }
 function num(o: Obj, key: string, what: string): number {
