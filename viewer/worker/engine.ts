@@ -9,7 +9,7 @@ import type { DenseLayer } from '../../formats/types.ts';
 import { analyseFile } from '../../src/analysis/analyse.ts';
 import { episodeSeries, type QFunction } from '../../src/analysis/series.ts';
 import { targetTimeline, type TargetTimeline } from '../../src/analysis/target-age.ts';
-import type { TdOptions } from '../../src/analysis/td.ts';
+import type { TdOptions, TdSeries } from '../../src/analysis/td.ts';
 import { forwardDense } from '../../src/net/forward.ts';
 import type { AnalysisPayload, SeriesPayload, TargetSpec } from './protocol.ts';
 
@@ -51,20 +51,7 @@ export class AnalysisEngine {
       firstNonFinite: s.firstNonFinite,
       targetSource: net?.source ?? null,
       targetAge: Uint32Array.from(age),
-      td: s.td
-        ? {
-            discount: s.td.discount,
-            bootstrap: s.td.bootstrap,
-            bootstrapped: s.td.bootstrapped,
-            rewardSum: s.td.rewardSum,
-            target: s.td.target,
-            qTaken: s.td.qTaken,
-            delta: s.td.delta,
-            squared: s.td.squared,
-            huber: s.td.huber,
-            clipped: s.td.clipped,
-          }
-        : null,
+      td: s.td ? withoutInputs(s.td) : null,
     };
   }
 
@@ -93,6 +80,12 @@ export class AnalysisEngine {
     const l = layers;
     return { q: (states, n) => forwardDense(l, states, n), source: `target in force (training step ${ref.trainingStep}, id ${id})` };
   }
+}
+
+/** The TD pieces to send: the options and rewards travel with the request and the step file already. */
+function withoutInputs(td: TdSeries): Omit<TdSeries, 'options' | 'reward'> {
+  const { options: _options, reward: _reward, ...pieces } = td;
+  return pieces;
 }
 
 /** The session's view of analysis: a worker, or the engine in-thread. */

@@ -7,7 +7,7 @@ import type { DenseLayer } from '../../formats/types.ts';
 import type { EpisodeVerdict } from '../../src/analysis/analyse.ts';
 import type { Suspect } from '../../src/analysis/suspects.ts';
 import type { SyncCadence } from '../../src/analysis/target-age.ts';
-import type { TdOptions } from '../../src/analysis/td.ts';
+import type { TdOptions, TdSeries } from '../../src/analysis/td.ts';
 
 export interface TargetNet {
   /** What the user picked, for display: "trolley.steps#target (training step 22800)". */
@@ -43,18 +43,8 @@ export interface SeriesPayload {
   targetSource: string | null;
   /** Per-step target age (training steps since the target weights last changed). */
   targetAge: Uint32Array;
-  td: {
-    discount: Float64Array;
-    bootstrap: Float64Array;
-    bootstrapped: Uint8Array;
-    rewardSum: Float64Array;
-    target: Float64Array;
-    qTaken: Float64Array;
-    delta: Float64Array;
-    squared: Float64Array;
-    huber: Float64Array;
-    clipped: Uint8Array;
-  } | null;
+  /** The TD pieces of src/analysis/td.ts, less what the viewer already has (options, rewards). */
+  td: Omit<TdSeries, 'options' | 'reward'> | null;
 }
 
 export interface AnalysisPayload {
