@@ -2,6 +2,7 @@
 import { render } from './timing.ts';
 import { stepFileBench } from './stepfile.bench.ts';
 import { tdBench } from './td.bench.ts';
+import { viewerBench } from './viewer.bench.ts';
 
 const json = process.argv.includes('--json');
 const results: Record<string, Record<string, number>> = {};
@@ -9,6 +10,7 @@ type Section = () => { rows: import('./timing.ts').BenchRow[]; figures: Record<s
 const sections: [string, Section][] = [
   ['step files (1,000,000 steps, D = 4, A = 2)', stepFileBench],
   ['TD recomputation (1,000,000 steps, 4→64→64→2 target)', tdBench],
+  ['viewer in Chromium (a 1,000,000-step episode)', viewerBench],
 ];
 const only = process.argv.find((a) => a.startsWith('--only='))?.slice(7);
 for (const [title, run] of sections) {
