@@ -3,6 +3,7 @@ import { render } from './timing.ts';
 import { stepFileBench } from './stepfile.bench.ts';
 import { tdBench } from './td.bench.ts';
 import { viewerBench } from './viewer.bench.ts';
+import { importBench } from './import.bench.ts';
 
 const json = process.argv.includes('--json');
 const results: Record<string, Record<string, number>> = {};
@@ -11,6 +12,7 @@ const sections: [string, Section][] = [
   ['step files (1,000,000 steps, D = 4, A = 2)', stepFileBench],
   ['TD recomputation (1,000,000 steps, 4→64→64→2 target)', tdBench],
   ['viewer in Chromium (a 1,000,000-step episode)', viewerBench],
+  ['import (1,000,000 JSON Lines, D = 4, A = 2)', importBench],
 ];
 const only = process.argv.find((a) => a.startsWith('--only='))?.slice(7);
 for (const [title, run] of sections) {

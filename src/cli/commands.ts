@@ -1,6 +1,6 @@
 /** Commands that load heavy modules (TensorFlow.js) are imported only when they run, so `summary` starts fast. */
 import { registerCommand } from './main.ts';
-import { clipUsage, demoUsage, healthUsage, suspectsUsage, tdUsage, viewUsage } from './usage.ts';
+import { clipUsage, demoUsage, healthUsage, importUsage, importWhat, snapshotUsage, snapshotWhat, suspectsUsage, tdUsage, viewUsage } from './usage.ts';
 
 registerCommand('demo', {
   run: async (argv, io) => (await import('./demo.ts')).demoCommand(argv, io),
@@ -32,4 +32,14 @@ registerCommand('clip', {
   run: async (argv, io) => (await import('./clip.ts')).clipCommand(argv, io),
   usage: clipUsage,
   what: 'cut a short segment into a clip step file or a self-contained clip page to share',
+});
+registerCommand('import', {
+  run: async (argv, io) => (await import('./import.ts')).importCommand(argv, io),
+  usage: importUsage,
+  what: importWhat,
+});
+registerCommand('snapshot', {
+  run: async (argv, io) => (await import('./snapshot-import.ts')).snapshotCommand(argv, io),
+  usage: snapshotUsage,
+  what: snapshotWhat,
 });

@@ -5,3 +5,4 @@ export const suspectsUsage = 'episcope suspects FILE [--target SNAP] [--top K] [
 export const healthUsage = 'episcope health FILE [--states K] [--json]';
 export const viewUsage = 'episcope view FILE… [--target SNAP] [--port P]';
 export const clipUsage = 'episcope clip FILE --episode E --from A --to B [--context K] [--target SNAP] [--title T] [--note TEXT] (-o OUT.steps | --page OUT.html) [--force]';
+export { importUsage, importWhat, snapshotUsage, snapshotWhat } from '../import/usage.ts';
