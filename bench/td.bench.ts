@@ -6,7 +6,6 @@
  */
 import { openStepFile } from '../formats/reader.ts';
 import { bytesSource } from '../formats/source.ts';
-import type { DenseLayer } from '../formats/types.ts';
 import { episodeSeries } from '../src/analysis/series.ts';
 import { nextStates } from '../src/analysis/series.ts';
 import { tdSeries } from '../src/analysis/td.ts';
@@ -15,27 +14,12 @@ import { createQEvaluator } from '../src/net/evaluator.ts';
 import { createRecorder } from '../src/record/recorder.ts';
 import { MemorySink } from '../src/record/memory-sink.ts';
 import { bestOf, type BenchRow } from './timing.ts';
+import { randomNet } from './nets.ts';
 
 const STEPS = 1_000_000;
 const EPISODE = 1_000;
 const D = 4;
 const A = 2;
-
-function randomNet(seed: number): DenseLayer[] {
-  const rng = createRandom(seed);
-  const sizes = [D, 64, 64, A];
-  return sizes.slice(1).map((outputs, i) => {
-    const inputs = sizes[i];
-    const scale = Math.sqrt(6 / (inputs + outputs));
-    return {
-      inputs,
-      outputs,
-      activation: i === sizes.length - 2 ? 'linear' : 'relu',
-      weights: Float32Array.from({ length: inputs * outputs }, () => rng.uniform(-scale, scale)),
-      bias: new Float32Array(outputs),
-    } as DenseLayer;
-  });
-}
 
 function recording(): Uint8Array {
   const rng = createRandom(3);

@@ -22,34 +22,18 @@ import { mkdtempSync, rmSync, statSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import type { Page } from 'playwright-core';
-import type { DenseLayer } from '../formats/types.ts';
 import { createRandom } from '../src/envs/random.ts';
 import { createRecorder } from '../src/record/recorder.ts';
 import { FileSink } from '../src/record/file-sink.ts';
 import { startViewer } from '../test/browser/harness.ts';
 import type { BenchRow } from './timing.ts';
+import { randomNet } from './nets.ts';
 
 const BIG = 1_000_000;
 const SMALL = 500;
 const SCRUB_PRESSES = 200;
 const D = 4;
 const A = 2;
-
-function randomNet(seed: number): DenseLayer[] {
-  const rng = createRandom(seed);
-  const sizes = [D, 64, 64, A];
-  return sizes.slice(1).map((outputs, i) => {
-    const inputs = sizes[i];
-    const scale = Math.sqrt(6 / (inputs + outputs));
-    return {
-      inputs,
-      outputs,
-      activation: i === sizes.length - 2 ? 'linear' : 'relu',
-      weights: Float32Array.from({ length: inputs * outputs }, () => rng.uniform(-scale, scale)),
-      bias: new Float32Array(outputs),
-    } as DenseLayer;
-  });
-}
 
 /**
  * One episode of `steps` steps: a mean-reverting random walk that stays on the rail and inside
