@@ -2,8 +2,8 @@
  * The built viewer that `episcope view` serves: dist/viewer, rebuilt with Vite when it is missing
  * or older than any source it is made from, so `npm start` works straight after `npm ci`.
  */
-import { existsSync, readdirSync, statSync } from 'node:fs';
-import { join } from 'node:path';
+import { existsSync, readdirSync, renameSync, rmSync, statSync } from 'node:fs';
+import { dirname, join } from 'node:path';
 import { fileURLToPath } from 'node:url';
 
 export const PROJECT = fileURLToPath(new URL('../..', import.meta.url));
@@ -27,11 +27,27 @@ export function isStale(marker: string): boolean {
   return ['viewer', 'src', 'formats'].some((d) => newest(join(PROJECT, d)) > built) || statSync(join(PROJECT, 'vite.config.ts')).mtimeMs > built;
 }
 
+/**
+ * Build into a folder of its own, then swap it in whole: two processes that build at once (two
+ * test files, or a test and a user) never see a half-emptied build.
+ */
 async function buildIfStale(marker: string, mode: string, what: string, log: (line: string) => void): Promise<void> {
   if (!isStale(marker)) return;
   log(`episcope: building the ${what} (once, a few seconds)…`);
+  const dest = dirname(marker);
+  const fresh = `${dest}.building-${process.pid}`;
+  const old = `${dest}.old-${process.pid}`;
   const { build } = await import('vite');
-  await build({ configFile: join(PROJECT, 'vite.config.ts'), mode, logLevel: 'warn' });
+  await build({ configFile: join(PROJECT, 'vite.config.ts'), mode, logLevel: 'warn', build: { outDir: fresh, emptyOutDir: true } });
+  if (existsSync(dest)) renameSync(dest, old);
+  try {
+    renameSync(fresh, dest);
+  } catch (e) {
+    // Another process put its own fresh build in place between the two renames: keep that one.
+    if (!existsSync(dest)) throw e;
+    rmSync(fresh, { recursive: true, force: true });
+  }
+  rmSync(old, { recursive: true, force: true });
 }
 
 export function ensureViewerBuilt(log: (line: string) => void): Promise<void> {
