@@ -1,16 +1,12 @@
 /** Text output helpers: aligned tables and exact, readable numbers. */
+import { shortestFloat32 } from '../text/float32.ts';
 
 /** Shortest decimal that reads back as the same float32; non-finite values by name. */
 export function f32Text(v: number): string {
   if (Number.isNaN(v)) return 'NaN';
   if (v === Infinity) return 'Infinity';
   if (v === -Infinity) return '-Infinity';
-  const f = Math.fround(v);
-  for (let p = 1; p <= 9; p++) {
-    const s = f.toPrecision(p);
-    if (Math.fround(Number(s)) === f) return String(Number(s));
-  }
-  return String(f);
+  return shortestFloat32(v);
 }
 
 /**

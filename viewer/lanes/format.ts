@@ -2,6 +2,7 @@
  * Text for the Lanes: tick labels (as few digits as the spacing needs) and readout values (exact:
  * the shortest decimal that reads back as the stored number).
  */
+import { shortestFloat32 } from '../../src/text/float32.ts';
 import type { Ticks } from './scale.ts';
 
 /** A value as the readout shows it: 'NaN', '∞', '−∞', or the shortest exact decimal. */
@@ -10,13 +11,7 @@ export function formatValue(v: number, float32 = false): string {
   if (v === Infinity) return '∞';
   if (v === -Infinity) return '−∞';
   if (!float32) return String(v); // JS prints the shortest decimal that round-trips a float64
-  // A float32 widened to float64 prints with up to 17 digits (0.1f → 0.10000000149011612); 9
-  // significant digits always round-trip a float32, and fewer usually do.
-  for (let p = 1; p < 9; p++) {
-    const s = Number(v.toPrecision(p));
-    if (Math.fround(s) === v) return String(s);
-  }
-  return String(Number(v.toPrecision(9)));
+  return shortestFloat32(v);
 }
 
 /** A tick label with just the decimals its spacing needs (spacing 0.2 → '0.4', spacing 20 → '40'). */
