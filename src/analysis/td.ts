@@ -13,6 +13,7 @@
  * final state after its last row.
  */
 import { huber } from './losses.ts';
+import { rowMax } from '../agent/targets.ts';
 import { FLAG_TERMINAL, FLAG_TRUNCATED } from '../../formats/types.ts';
 
 export type TdRule = 'dqn' | 'double' | 'nstep';
@@ -66,18 +67,6 @@ export interface TdSeries {
   clipped: Uint8Array;
 }
 
-function rowMax(values: Float32Array, row: number, m: number): number {
-  let best = -Infinity;
-  let nan = false;
-  for (let a = 0; a < m; a++) {
-    const v = values[row * m + a];
-    if (Number.isNaN(v)) nan = true;
-    else if (v > best) best = v;
-  }
-  // A NaN among the next-state values makes the target NaN: a blow-up must stay visible downstream.
-  return nan ? NaN : best;
-}
-
 function rowArgmax(values: Float32Array, row: number, m: number): number {
   let best = -1;
   let bestV = -Infinity;
@@ -116,7 +105,8 @@ export function tdSeries(inp: TdInputs, options: TdOptions): TdSeries {
     clipped: new Uint8Array(N),
   };
   // V at the state after row j, under the rule's bootstrap.
-  const value = (j: number) => (rule === 'double' ? doubleValue(targetNext, onlineNext!, j, A) : rowMax(targetNext, j, A));
+  // A NaN among the next-state values makes the target NaN: a blow-up must stay visible downstream.
+  const value = (j: number) => (rule === 'double' ? doubleValue(targetNext, onlineNext!, j, A) : rowMax(targetNext, j * A, A));
   for (let t = 0; t < N; t++) {
     let sum = 0;
     let g = 1;
