@@ -5,9 +5,11 @@
  */
 import { Packr, Unpackr } from 'msgpackr';
 import { decodeArray, encodeArray, type TypedArray } from './columns.ts';
+import { decodePacked, decodePackedPlace, encodePacked } from './packed-block.ts';
 import {
   ACTIVATIONS,
   FORMAT_VERSION,
+  PLAIN_FORMAT_VERSION,
   type Activation,
   type DenseLayer,
   type EpisodeEnd,
@@ -96,8 +98,8 @@ export function encodeHeader(h: Header): Uint8Array {
 export function decodeHeader(bytes: Uint8Array): Header {
   const o = obj(unpack(bytes), 'header');
   const version = count(o, 'version', 'header');
-  if (version !== FORMAT_VERSION) {
-    const e = new Error(`header.version: this reader reads version ${FORMAT_VERSION}, the file is version ${version}`);
+  if (version < PLAIN_FORMAT_VERSION || version > FORMAT_VERSION) {
+    const e = new Error(`header.version: this reader reads versions ${PLAIN_FORMAT_VERSION} to ${FORMAT_VERSION}, the file is version ${version}`);
     (e as Error & { unsupported: true }).unsupported = true;
     throw e;
   }
@@ -165,9 +167,33 @@ export interface BlockToEncode {
   weights: WeightsRun[];
 }
 
-export function encodeBlock(b: BlockToEncode, stateSize: number, actionCount: number, compress: boolean): Uint8Array {
+/**
+ * `packed`: the whole block as one MessagePack binary of predicted lanes (SPEC.md §5.2), for
+ * version-2 files; otherwise a map with one raw array map per column (§5.1).
+ */
+export function encodeBlock(b: BlockToEncode, header: Header, packed: boolean): Uint8Array {
   const n = b.n;
-  const col = (a: TypedArray, shape: number[]) => encodeArray(a, shape, compress);
+  const stateSize = header.stateDims.length;
+  const actionCount = header.actions.length;
+  if (packed) {
+    const columns = encodePacked({
+      episode: b.episode,
+      firstStep: b.firstStep,
+      n,
+      stateSize,
+      actionCount,
+      state: b.state,
+      q: b.q,
+      reward: b.reward,
+      action: b.action,
+      flags: b.flags,
+      epsilon: b.epsilon,
+      extras: header.extras.map((name) => b.extras[name] ?? null),
+      weights: b.weights,
+    });
+    return pack(columns);
+  }
+  const col = (a: TypedArray, shape: number[]) => encodeArray(a, shape);
   const payload: Obj = {
     episode: b.episode,
     firstStep: b.firstStep,
@@ -185,6 +211,12 @@ export function encodeBlock(b: BlockToEncode, stateSize: number, actionCount: nu
   return pack(payload);
 }
 
+function checkActions(action: Uint32Array, A: number): void {
+  for (let i = 0; i < action.length; i++) {
+    if (action[i] >= A) throw new Error(`step block.action[${i}]: ${action[i]} is not an action index below ${A}`);
+  }
+}
+
 /** Just the block's place in the file, without decoding its arrays: what a forward scan needs. */
 export interface BlockPlace {
   episode: number;
@@ -193,15 +225,28 @@ export interface BlockPlace {
 }
 
 export function decodeBlockPlace(bytes: Uint8Array): BlockPlace {
-  const o = obj(unpack(bytes), 'step block');
+  const v = unpack(bytes);
+  if (v instanceof Uint8Array) {
+    const { episode, firstStep, n } = decodePackedPlace(v);
+    return { episode, firstStep, n };
+  }
+  const o = obj(v, 'step block');
   return { episode: count(o, 'episode', 'step block'), firstStep: count(o, 'firstStep', 'step block'), n: count(o, 'n', 'step block') };
 }
 
 export function decodeBlock(bytes: Uint8Array, header: Header, maxBytes: number): StepColumns {
-  const o = obj(unpack(bytes), 'step block');
-  const n = count(o, 'n', 'step block');
+  const v = unpack(bytes);
   const D = header.stateDims.length;
   const A = header.actions.length;
+  if (v instanceof Uint8Array) {
+    const c = decodePacked(v, D, A, header.extras, maxBytes);
+    checkActions(c.action, A);
+    return c;
+  }
+  const o = obj(v, 'step block');
+  const n = count(o, 'n', 'step block');
+  const episode = count(o, 'episode', 'step block');
+  const firstStep = count(o, 'firstStep', 'step block');
   const state = f32Array(o.state, 'step block.state', n * D, maxBytes);
   const actionRaw = decodeArray(o.action, 'step block.action', maxBytes);
   if (!(actionRaw instanceof Uint8Array || actionRaw instanceof Uint16Array || actionRaw instanceof Uint32Array) || actionRaw.length !== n) {
@@ -210,9 +255,7 @@ export function decodeBlock(bytes: Uint8Array, header: Header, maxBytes: number)
   let action: Uint32Array;
   if (actionRaw instanceof Uint32Array) action = actionRaw;
   else (action = new Uint32Array(n)).set(actionRaw);
-  for (let i = 0; i < n; i++) {
-    if (action[i] >= A) throw new Error(`step block.action[${i}]: ${action[i]} is not an action index below ${A}`);
-  }
+  checkActions(action, A);
   const flags = decodeArray(o.flags, 'step block.flags', maxBytes);
   if (!(flags instanceof Uint8Array) || flags.length !== n) throw new Error(`step block.flags: expected ${n} u8 values`);
   const extras: Record<string, Float32Array> = {};
@@ -228,8 +271,8 @@ export function decodeBlock(bytes: Uint8Array, header: Header, maxBytes: number)
   });
   return {
     n,
-    episode: count(o, 'episode', 'step block'),
-    firstStep: count(o, 'firstStep', 'step block'),
+    episode,
+    firstStep,
     state,
     action,
     reward: f32Array(o.reward, 'step block.reward', n, maxBytes),

@@ -1,9 +1,12 @@
 /**
- * The records of a step file (format version 1), as the codec hands them to the rest of episcope.
+ * The records of a step file (format versions 1 and 2), as the codec hands them to the rest of episcope.
  * formats/SPEC.md is the byte-level description; these types mirror its field names.
  */
 
-export const FORMAT_VERSION = 1;
+/** The newest version: step blocks may be packed (SPEC.md §5.2). */
+export const FORMAT_VERSION = 2;
+/** A file without packed blocks is written as version 1, so that every version-1 reader still reads it. */
+export const PLAIN_FORMAT_VERSION = 1;
 
 export interface StateDimSpec {
   name: string;

@@ -13,7 +13,7 @@ import {
   encodeSnapshot,
   type BlockToEncode,
 } from './records.ts';
-import type { EpisodeEnd, Header, Note, Snapshot } from './types.ts';
+import { FORMAT_VERSION, PLAIN_FORMAT_VERSION, type EpisodeEnd, type Header, type Note, type Snapshot } from './types.ts';
 
 /** Where bytes go. `write` must take the bytes whole or throw. */
 export interface ByteSink {
@@ -31,14 +31,18 @@ export class StepFileWriter {
     notes: [],
   };
 
+  readonly header: Header;
+
+  /** `compress`: write packed step blocks (SPEC.md §5.2). The header's version says which form follows. */
   constructor(
     private readonly sink: ByteSink,
-    readonly header: Header,
+    header: Header,
     private readonly compress: boolean,
   ) {
+    this.header = { ...header, version: compress ? FORMAT_VERSION : PLAIN_FORMAT_VERSION };
     this.sink.write(MAGIC);
     this.offset = MAGIC.length;
-    this.tables.header = this.append(Kind.Header, encodeHeader(header));
+    this.tables.header = this.append(Kind.Header, encodeHeader(this.header));
   }
 
   get bytesWritten(): number {
@@ -46,7 +50,7 @@ export class StepFileWriter {
   }
 
   writeBlock(block: BlockToEncode): BlockRef {
-    const payload = encodeBlock(block, this.header.stateDims.length, this.header.actions.length, this.compress);
+    const payload = encodeBlock(block, this.header, this.compress);
     const ref = { ...this.append(Kind.StepBlock, payload), episode: block.episode, firstStep: block.firstStep, n: block.n };
     this.tables.blocks.push(ref);
     return ref;

@@ -180,19 +180,29 @@ describe('files that are not step files, or not this version', () => {
     expect(file.episodes).toEqual([]);
   });
 
-  it('refuses a header of version 2 as unsupported, naming both versions', () => {
-    const error = openError(concatBytes(magicBytes(), frameByHand(KIND.header, encode(specHeader(2)))));
-    expect(error.problem).toBe('unsupported');
-    expect(error.offset).toBe(8);
-    expect(error.message).toBe('odd.steps at byte 8: header record: header.version: this reader reads version 1, the file is version 2');
+  it('reads a version-2 header: packed blocks may follow', () => {
+    const file = openStepFile(policedSource(concatBytes(magicBytes(), frameByHand(KIND.header, encode(specHeader(2))))), 'v2.steps');
+    expect(file.header.version).toBe(2);
   });
 
-  it('refuses a closed file with an index whose header is version 2 as unsupported', () => {
+  it('refuses a header of a later version as unsupported, naming the versions it reads', () => {
+    const later = FORMAT_VERSION + 1;
+    const error = openError(concatBytes(magicBytes(), frameByHand(KIND.header, encode(specHeader(later)))));
+    expect(error.problem).toBe('unsupported');
+    expect(error.offset).toBe(8);
+    expect(error.message).toBe(`odd.steps at byte 8: header record: header.version: this reader reads versions 1 to 2, the file is version ${later}`);
+  });
+
+  it('refuses a closed file with an index whose header is of a later version as unsupported', () => {
     const sink = new MemorySink();
-    const writer = new StepFileWriter(sink, { version: 2, ...TROLLEY_HEADER } as Header, false);
-    writer.finish();
-    expect(walkFrames(sink.bytes()).map((f) => f.kind)).toEqual([KIND.header, KIND.index, KIND.trailer]);
-    expect(openError(sink.bytes())).toMatchObject({ problem: 'unsupported', offset: 8 });
+    new StepFileWriter(sink, { version: 1, ...TROLLEY_HEADER } as Header, false).finish();
+    const bytes = sink.bytes();
+    const frames = walkFrames(bytes);
+    expect(frames.map((f) => f.kind)).toEqual([KIND.header, KIND.index, KIND.trailer]);
+    // The same header with a later version number is as long, so the index still points right.
+    const later = frameByHand(KIND.header, encodeHeader({ version: FORMAT_VERSION + 1, ...TROLLEY_HEADER }));
+    expect(later.length).toBe(frames[0].end - frames[0].offset);
+    expect(openError(concatBytes(magicBytes(), later, bytes.subarray(frames[0].end)))).toMatchObject({ problem: 'unsupported', offset: 8 });
   });
 
   it('refuses a file whose first record is not a header as corrupt', () => {

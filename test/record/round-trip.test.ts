@@ -141,8 +141,8 @@ describe.each([
     expect(file.size).toBe(bytes.length);
   });
 
-  it('returns the header as given, with the format version', () => {
-    expect(file.header).toEqual({ version: 1, ...TROLLEY_HEADER });
+  it('returns the header as given, with version 2 when blocks are packed and 1 when not', () => {
+    expect(file.header).toEqual({ version: options.compress ? 2 : 1, ...TROLLEY_HEADER });
   });
 
   it('lists every episode with its length and end record, the empty one included', () => {
