@@ -15,6 +15,7 @@ export const RICE_ESCAPE = 32;
 export class BitWriter {
   private bytes: Uint8Array;
   private pos = 0;
+  /** Bits not yet written out, right-aligned; fewer than 8 between calls. */
   private acc = 0;
   private accBits = 0;
 
@@ -26,13 +27,14 @@ export class BitWriter {
   bits(v: number, n: number): void {
     if (this.pos + 4 > this.bytes.length) this.grow();
     // acc holds fewer than 8 bits, so acc << n stays within 32 bits for n ≤ 24.
-    this.acc = (this.acc << n) | (v & ((1 << n) - 1));
-    this.accBits += n;
-    while (this.accBits >= 8) {
-      this.accBits -= 8;
-      this.bytes[this.pos++] = (this.acc >>> this.accBits) & 0xff;
+    let acc = (this.acc << n) | (v & ((1 << n) - 1));
+    let accBits = this.accBits + n;
+    while (accBits >= 8) {
+      accBits -= 8;
+      this.bytes[this.pos++] = acc >>> accBits;
     }
-    this.acc &= (1 << this.accBits) - 1;
+    this.acc = acc & ((1 << accBits) - 1);
+    this.accBits = accBits;
   }
 
   /** Appends `n` bits of a value below 2^32, for any n ≤ 32. */
@@ -43,9 +45,45 @@ export class BitWriter {
     } else this.bits(v, n);
   }
 
+  /**
+   * Rice codes of r[from…to) with one k. The common codes (≤ 24 bits) are packed with the window
+   * in locals: a u32 kept in an object field would be a boxed number on every store.
+   */
+  riceLane(r: Uint32Array, from: number, to: number, k: number): void {
+    const lowMask = k >= 32 ? -1 : (1 << k) - 1;
+    let acc = this.acc;
+    let accBits = this.accBits;
+    for (let t = from; t < to; t++) {
+      const z = r[t];
+      const q = k >= 32 ? 0 : z >>> k;
+      const n = q + 1 + k;
+      if (n > 24) {
+        this.acc = acc;
+        this.accBits = accBits;
+        this.rice(z, k);
+        acc = this.acc;
+        accBits = this.accBits;
+        continue;
+      }
+      if (this.pos + 4 > this.bytes.length) this.grow();
+      acc = (acc << n) | (((1 << q) - 1) << (k + 1)) | (z & lowMask);
+      accBits += n;
+      while (accBits >= 8) {
+        accBits -= 8;
+        this.bytes[this.pos++] = acc >>> accBits;
+      }
+      acc &= (1 << accBits) - 1;
+    }
+    this.acc = acc;
+    this.accBits = accBits;
+  }
+
   rice(r: number, k: number): void {
-    const q = k >= 32 ? 0 : Math.floor(r / 2 ** k);
-    if (q < RICE_ESCAPE) {
+    const q = k >= 32 ? 0 : r >>> k;
+    if (q + 1 + k <= 24) {
+      // The common case in one piece: q ones, a zero, k low bits.
+      this.bits((((1 << q) - 1) << (k + 1)) | (r & ((1 << k) - 1)), q + 1 + k);
+    } else if (q < RICE_ESCAPE) {
       // q ones and a zero, in at most two pieces of ≤ 24 bits.
       if (q + 1 <= 24) this.bits(((1 << q) - 1) << 1, q + 1);
       else {
@@ -75,8 +113,9 @@ export class BitWriter {
 
 export class BitReader {
   private pos: number;
-  private acc = 0;
-  private accBits = 0;
+  /** The next `avail` bits of the stream, from the high bit down; the bits below them are zero. */
+  private win = 0;
+  private avail = 0;
 
   constructor(
     private readonly bytes: Uint8Array,
@@ -85,16 +124,23 @@ export class BitReader {
     this.pos = start;
   }
 
+  private refill(): void {
+    while (this.avail <= 24 && this.pos < this.bytes.length) {
+      this.win = (this.win | (this.bytes[this.pos++] << (24 - this.avail))) >>> 0;
+      this.avail += 8;
+    }
+  }
+
   /** Reads n ≤ 24 bits. Throws a plain Error past the end: the caller names the record. */
   bits(n: number): number {
-    while (this.accBits < n) {
-      if (this.pos >= this.bytes.length) throw new Error('bit stream ends early');
-      this.acc = ((this.acc << 8) | this.bytes[this.pos++]) & 0xffffffff;
-      this.accBits += 8;
+    if (n === 0) return 0;
+    if (this.avail < n) {
+      this.refill();
+      if (this.avail < n) throw new Error('bit stream ends early');
     }
-    this.accBits -= n;
-    const v = (this.acc >>> this.accBits) & ((1 << n) - 1);
-    this.acc &= (1 << this.accBits) - 1;
+    const v = this.win >>> (32 - n);
+    this.win = (this.win << n) >>> 0;
+    this.avail -= n;
     return v;
   }
 
@@ -103,18 +149,93 @@ export class BitReader {
     return this.bits(n);
   }
 
+  /** Reads n Rice codes with parameter k into out[from…from+n), the window in locals (see BitWriter.riceLane). */
+  riceLane(out: Uint32Array, from: number, n: number, k: number): void {
+    const bytes = this.bytes;
+    const end = bytes.length;
+    let pos = this.pos;
+    let win = this.win;
+    let avail = this.avail;
+    for (let t = from; t < from + n; t++) {
+      let q = 0;
+      for (;;) {
+        while (avail <= 24 && pos < end) {
+          win = (win | (bytes[pos++] << (24 - avail))) >>> 0;
+          avail += 8;
+        }
+        if (avail === 0) throw new Error('bit stream ends early');
+        const ones = Math.min(Math.clz32(~win), avail, RICE_ESCAPE - q);
+        q += ones;
+        win = ones === 32 ? 0 : (win << ones) >>> 0;
+        avail -= ones;
+        if (q === RICE_ESCAPE || avail > 0) break;
+      }
+      if (q === RICE_ESCAPE) {
+        this.pos = pos;
+        this.win = win;
+        this.avail = avail;
+        out[t] = this.wide(32);
+        pos = this.pos;
+        win = this.win;
+        avail = this.avail;
+        continue;
+      }
+      // The ones stopped at a zero inside the window: drop it, then read the k low bits.
+      win = (win << 1) >>> 0;
+      avail -= 1;
+      if (k === 0) {
+        out[t] = q;
+        continue;
+      }
+      if (k <= 24) {
+        while (avail < k && pos < end) {
+          win = (win | (bytes[pos++] << (24 - avail))) >>> 0;
+          avail += 8;
+        }
+        if (avail < k) throw new Error('bit stream ends early');
+        out[t] = q * (1 << k) + (win >>> (32 - k));
+        win = (win << k) >>> 0;
+        avail -= k;
+      } else {
+        this.pos = pos;
+        this.win = win;
+        this.avail = avail;
+        out[t] = q * 2 ** k + this.wide(k);
+        pos = this.pos;
+        win = this.win;
+        avail = this.avail;
+      }
+    }
+    this.pos = pos;
+    this.win = win;
+    this.avail = avail;
+  }
+
   rice(k: number): number {
     let q = 0;
-    while (q < RICE_ESCAPE && this.bits(1) === 1) q++;
-    if (q === RICE_ESCAPE) return this.wide(32);
-    if (k === 0) return q;
-    return q * 2 ** k + this.wide(k);
+    for (;;) {
+      this.refill();
+      if (this.avail === 0) throw new Error('bit stream ends early');
+      // Leading ones of the window, at most the bits it holds and what the escape allows.
+      const ones = Math.min(Math.clz32(~this.win), this.avail, RICE_ESCAPE - q);
+      q += ones;
+      this.win = ones === 32 ? 0 : (this.win << ones) >>> 0;
+      this.avail -= ones;
+      if (q === RICE_ESCAPE) return this.wide(32);
+      if (this.avail > 0) {
+        // The ones stopped at a zero inside the window: the end of the unary part.
+        this.win = (this.win << 1) >>> 0;
+        this.avail -= 1;
+        break;
+      }
+    }
+    return k === 0 ? q : q * 2 ** k + this.wide(k);
   }
 }
 
 /** Bits a Rice code of r with parameter k takes: the measure the encoder chooses k by. */
 export function riceLength(r: number, k: number): number {
-  const q = k >= 32 ? 0 : Math.floor(r / 2 ** k);
+  const q = k >= 32 ? 0 : Math.floor(r / 2 ** k); // r may be a fraction (an estimate) or ≥ 2^31
   return q < RICE_ESCAPE ? q + 1 + k : RICE_ESCAPE + 32;
 }
 

@@ -6,11 +6,14 @@
  * The encoder chooses, per block and lane, the predictor that makes the residuals smallest on the
  * block's first rows; the choice is written down, so a reader never guesses.
  */
-import { BitReader, BitWriter, ByteReader, ByteWriter, riceLength } from './bitstream.ts';
+import { BitReader, BitWriter, ByteReader, ByteWriter, RICE_ESCAPE, riceLength } from './bitstream.ts';
 import { Predict, bitCost, zigzagOfPattern, coefficientCandidates, hasCoefficient, hasRef, reconstruct, residuals, PREDICT_KINDS, type Predictor } from './lanes.ts';
 import type { WeightsRun } from './types.ts';
 
 export const PACKED_LAYOUT = 1;
+
+/** A module-local copy: an imported binding may be read through a getter in a hot loop. */
+const ESCAPE = RICE_ESCAPE;
 
 /** Rows the predictor search looks at: enough to tell predictors apart, few enough to stay cheap. */
 const SEARCH_ROWS = 256;
@@ -156,7 +159,12 @@ function riceParameter(r: Uint32Array, from: number): number {
   let bestBits = Infinity;
   for (let k = Math.max(0, guess - 1); k <= Math.min(32, guess + 1); k++) {
     let bits = 0;
-    for (let t = from; t < r.length; t++) bits += riceLength(r[t], k);
+    if (k < 32) {
+      for (let t = from; t < r.length; t++) {
+        const q = r[t] >>> k;
+        bits += q < ESCAPE ? q + 1 + k : ESCAPE + 32;
+      }
+    } else bits = 33 * (r.length - from);
     if (bits < bestBits) {
       bestBits = bits;
       best = k;
@@ -258,7 +266,7 @@ export function encodePacked(b: PackedColumns): Uint8Array {
   for (const { lane, p, r, k } of order) {
     let t = 0;
     if (firstValueRaw(lane.float, p.kind)) bits.wide(lane.bits[t++], 32);
-    for (; t < n; t++) bits.rice(r[t], k);
+    bits.riceLane(r, t, n, k);
   }
   head.raw(bits.finish());
   return head.finish();
@@ -348,7 +356,7 @@ export function decodePacked(bytes: Uint8Array, D: number, A: number, extraNames
     try {
       let t = 0;
       if (raw) res[t++] = bits.wide(32);
-      for (; t < n; t++) res[t] = bits.rice(k) >>> 0;
+      bits.riceLane(res, t, n - t, k);
     } catch (e) {
       throw new Error(`${what}, lane ${id}: ${(e as Error).message}`);
     }
