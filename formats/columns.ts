@@ -3,8 +3,8 @@
  * shuffled and deflated. Never lists of numbers: a list costs 5–9 bytes per float and a parse per
  * element, raw bytes cost 4 and a copy.
  */
-import { deflateRaw, inflateRaw } from './deflate.ts';
-import { shuffleBytes, unshuffleBytes } from './shuffle.ts';
+import { inflateRaw } from './deflate.ts';
+import { unshuffleBytes } from './shuffle.ts';
 
 export type DType = 'u8' | 'u16' | 'u32' | 'i32' | 'f32' | 'f64';
 export type TypedArray = Uint8Array | Uint16Array | Uint32Array | Int32Array | Float32Array | Float64Array;
@@ -56,31 +56,23 @@ function rowStride(shape: number[]): number {
 }
 
 /**
- * XOR every element's bits with those of the same element one row earlier (row 0 unchanged).
- * Successive steps of a trajectory have nearby values, so sign, exponent and high mantissa bits
- * cancel to zero bytes that deflate then removes. Lossless for every bit pattern, NaN payloads included.
+ * Undo `xor-shuffle-deflate`'s XOR: from the second row on, in increasing order, every element's
+ * bits are XORed with those of the element one row earlier. Lossless for every bit pattern.
  */
-function xorRows(bytes: Uint8Array, width: number, stride: number, undo: boolean): void {
+function unXorRows(bytes: Uint8Array, width: number, stride: number): void {
   const words = width === 8 ? 2 : 1;
   const view =
     width === 1 ? bytes : width === 2 ? new Uint16Array(bytes.buffer, bytes.byteOffset, bytes.length / 2) : new Uint32Array(bytes.buffer, bytes.byteOffset, bytes.length / 4);
   const step = stride * words;
-  if (undo) for (let i = step; i < view.length; i++) view[i] ^= view[i - step];
-  else for (let i = view.length - 1; i >= step; i--) view[i] ^= view[i - step];
+  for (let i = step; i < view.length; i++) view[i] ^= view[i - step];
 }
 
-/** deflate level 1: the columns are written on the recorder's hot path, and level 1 already gets most of the gain. */
-export function encodeArray(a: TypedArray, shape: number[], compress = false): WireArray {
-  const dtype = dtypeOf(a);
-  const raw = bytesOf(a);
-  if (!compress || raw.length === 0) return { dtype, shape, data: raw };
-  const width = DTYPE_SIZE[dtype];
-  const work = raw.slice();
-  xorRows(work, width, rowStride(shape), false);
-  const packed = deflateRaw(shuffleBytes(work, width), 1);
-  // Incompressible data (noise in the low mantissa bits) stays raw: never pay for a codec that loses.
-  if (packed.length >= raw.length) return { dtype, shape, data: raw };
-  return { dtype, shape, data: packed, codec: CODEC_XOR_SHUFFLE_DEFLATE };
+/**
+ * An array as stored: raw little-endian bytes. Compressed step data is written as packed blocks
+ * (packed-block.ts); the column codecs below are read for files of version 1 and other writers.
+ */
+export function encodeArray(a: TypedArray, shape: number[]): WireArray {
+  return { dtype: dtypeOf(a), shape, data: bytesOf(a) };
 }
 
 /**
@@ -108,7 +100,7 @@ export function decodeArray(w: unknown, what: string, maxBytes: number): TypedAr
     }
     if (inflated.length !== want) throw new Error(`${what}: inflates to ${inflated.length} bytes, shape needs ${want}`);
     raw = unshuffleBytes(inflated, size);
-    if (w.codec === CODEC_XOR_SHUFFLE_DEFLATE) xorRows(raw, size, rowStride(w.shape), true);
+    if (w.codec === CODEC_XOR_SHUFFLE_DEFLATE) unXorRows(raw, size, rowStride(w.shape));
   } else if (w.codec !== undefined) {
     throw new Error(`${what}: unknown codec ${JSON.stringify(w.codec)} (expected "${CODEC_XOR_SHUFFLE_DEFLATE}", "${CODEC_SHUFFLE_DEFLATE}" or none)`);
   } else if (raw.length !== want) {

@@ -1,24 +1,18 @@
 /**
- * Raw deflate (RFC 1951) for column data. Node's zlib is about 3× fflate, so it is used where it
- * exists; in the browser fflate does the same job. Both read each other's output: it is one format.
+ * Raw inflate (RFC 1951) for the deflated columns of version-1 files. Node's zlib is about 3×
+ * fflate, so it is used where it exists; in the browser fflate does the same job.
  */
-import { deflateSync, inflateSync } from 'fflate';
+import { inflateSync } from 'fflate';
 
 interface NativeZlib {
-  deflateRawSync(data: Uint8Array, options: { level: number }): Uint8Array;
   inflateRawSync(data: Uint8Array, options: { maxOutputLength?: number }): Uint8Array;
 }
 
 const zlib = (() => {
   const proc = (globalThis as { process?: { getBuiltinModule?: (id: string) => unknown } }).process;
   const z = proc?.getBuiltinModule?.('node:zlib') as NativeZlib | undefined;
-  return typeof z?.deflateRawSync === 'function' ? z : null;
+  return typeof z?.inflateRawSync === 'function' ? z : null;
 })();
-
-export function deflateRaw(data: Uint8Array, level: 1 | 6 | 9 = 1): Uint8Array {
-  if (zlib) return zlib.deflateRawSync(data, { level });
-  return deflateSync(data, { level });
-}
 
 /** Inflate to exactly `size` bytes at most; a stream that would exceed it is an error, not an allocation. */
 export function inflateRaw(data: Uint8Array, size: number): Uint8Array {

@@ -50,3 +50,24 @@ export function shuffleDeflateBySpec(dtype: string, shape: number[], raw: Uint8A
   for (let i = 0; i < n; i++) for (let b = 0; b < width; b++) shuffled[b * n + i] = raw[i * width + b];
   return { dtype, shape, data: new Uint8Array(deflateRawSync(shuffled)), codec: 'shuffle-deflate' };
 }
+
+/**
+ * An array map encoded with `xor-shuffle-deflate` from the SPEC's words (§3), as version-1 files
+ * of earlier episcope builds hold it: XOR each element with the one a row (stride) earlier, taking
+ * elements as unsigned integers of their width and an f64 as two u32 words; shuffle; raw deflate.
+ */
+export function xorShuffleDeflateBySpec(dtype: string, shape: number[], raw: Uint8Array): SpecArrayMap {
+  const width = DTYPE_WIDTH[dtype];
+  const stride = shape.length > 1 ? product(shape.slice(1)) : 1;
+  const wordWidth = Math.min(width, 4);
+  const xored = raw.slice();
+  const view = new DataView(xored.buffer);
+  const words = raw.length / wordWidth;
+  const step = stride * (width / wordWidth);
+  const get = (k: number) => (wordWidth === 1 ? view.getUint8(k) : wordWidth === 2 ? view.getUint16(k * 2, true) : view.getUint32(k * 4, true));
+  const set = (k: number, v: number) => (wordWidth === 1 ? view.setUint8(k, v) : wordWidth === 2 ? view.setUint16(k * 2, v, true) : view.setUint32(k * 4, v >>> 0, true));
+  // From the last element down, so every XOR reads an element not yet changed.
+  for (let k = words - 1; k >= step; k--) set(k, get(k) ^ get(k - step));
+  const { data } = shuffleDeflateBySpec(dtype, shape, xored);
+  return { dtype, shape, data, codec: 'xor-shuffle-deflate' };
+}

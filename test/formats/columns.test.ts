@@ -1,6 +1,6 @@
 import { describe, expect, it } from 'vitest';
 import { decodeArray, encodeArray, type TypedArray } from '../../formats/columns.ts';
-import { decodeArrayMapBySpec, shuffleDeflateBySpec } from './columns-by-spec.ts';
+import { decodeArrayMapBySpec, shuffleDeflateBySpec, xorShuffleDeflateBySpec } from './columns-by-spec.ts';
 import { shuffleBytes, unshuffleBytes } from '../../formats/shuffle.ts';
 import { seededBytes } from './seeded-bytes.ts';
 
@@ -64,12 +64,9 @@ describe('column codec (SPEC.md §3, array maps)', () => {
     return column;
   }
 
-  it('compresses a smooth f32 column with xor-shuffle-deflate and decodes it bit for bit, specials included', () => {
+  it('reads a smooth f32 column stored with xor-shuffle-deflate (version-1 files) bit for bit, specials included', () => {
     const column = smoothColumnWithSpecials();
-    const wire = encodeArray(column, [column.length], true);
-    expect(wire.codec).toBe('xor-shuffle-deflate'); // SPEC.md §3: the reference writer's codec
-    expect(wire.dtype).toBe('f32');
-    expect(wire.shape).toEqual([2048]);
+    const wire = xorShuffleDeflateBySpec('f32', [column.length], bytesOf(column));
     expect(wire.data.length).toBeLessThan(column.byteLength / 2);
     const decoded = decodeArray(wire, 'column', 1 << 20);
     expect(decoded).toBeInstanceOf(Float32Array);
@@ -83,12 +80,9 @@ describe('column codec (SPEC.md §3, array maps)', () => {
     ['f64 values, XORed as pairs of u32 words', 'f64', [300, 2], () => bytesOf(Float64Array.from({ length: 600 }, (_, i) => 1e6 + Math.floor(i / 2) * 0.5))],
     ['u16 action indices', 'u16', [1000], () => bytesOf(Uint16Array.from({ length: 1000 }, (_, i) => 300 + (i % 3)))],
     ['u8 flags', 'u8', [1000], () => Uint8Array.from({ length: 1000 }, (_, i) => (i % 50 === 49 ? 1 : 4))],
-  ])('writes %s as SPEC.md §3 says (XOR with the row before, shuffle, raw deflate)', (_, dtype, shape, makeRaw) => {
+  ])('reads %s stored as SPEC.md §3 says (XOR with the row before, shuffle, raw deflate)', (_, dtype, shape, makeRaw) => {
     const raw = makeRaw();
-    const Ctor = { f32: Float32Array, f64: Float64Array, u16: Uint16Array, u8: Uint8Array }[dtype as 'f32']!;
-    const column = new Ctor(raw.slice().buffer);
-    const wire = encodeArray(column, shape, true);
-    expect(wire.codec).toBe('xor-shuffle-deflate');
+    const wire = xorShuffleDeflateBySpec(dtype, shape, raw);
     expect(decodeArrayMapBySpec(wire)).toEqual(raw);
     expect(bytesOf(decodeArray(wire, 'column', 1 << 20))).toEqual(raw);
   });
@@ -107,29 +101,18 @@ describe('column codec (SPEC.md §3, array maps)', () => {
     ['u32', Uint32Array.from({ length: 1000 }, (_, i) => 70000 + (i % 3))],
     ['i32', Int32Array.from({ length: 1000 }, (_, i) => -i)],
     ['u8', Uint8Array.from({ length: 1000 }, (_, i) => i % 5)],
-  ])('round-trips a compressible %s column exactly', (_, column) => {
+  ])('reads a %s column stored with xor-shuffle-deflate exactly', (_, column) => {
     // Give the f64 NaN at index 2 a payload in its low word, written as bits.
     if (column instanceof Float64Array) new Uint32Array(column.buffer)[4] = 0x00000001;
-    const before = bytesOf(column).slice();
-    const wire = encodeArray(column, [column.length], true);
-    expect(wire.codec).toBe('xor-shuffle-deflate');
-    expect(bytesOf(column)).toEqual(before); // the caller's array is left as it was
-    const decoded = decodeArray(wire, 'column', 1 << 20);
+    const dtype = { Float64Array: 'f64', Uint16Array: 'u16', Uint32Array: 'u32', Int32Array: 'i32', Uint8Array: 'u8' }[column.constructor.name]!;
+    const decoded = decodeArray(xorShuffleDeflateBySpec(dtype, [column.length], bytesOf(column)), 'column', 1 << 20);
     expect(decoded.constructor).toBe(column.constructor);
-    expect(bytesOf(decoded)).toEqual(before);
+    expect(bytesOf(decoded)).toEqual(bytesOf(column));
   });
 
-  it('stores an incompressible column raw, with no codec', () => {
-    const noise = new Float32Array(seededBytes(4096, 42).buffer);
-    const wire = encodeArray(noise, [noise.length], true);
-    expect(wire.codec).toBeUndefined();
-    expect(wire.data).toEqual(bytesOf(noise));
-    expect(hexBits(decodeArray(wire, 'column', 1 << 20) as Float32Array)).toEqual(hexBits(noise));
-  });
-
-  it('stores every column raw when compression is off', () => {
+  it('writes every array raw: dtype, shape and the little-endian bytes', () => {
     const column = smoothColumnWithSpecials();
-    const wire = encodeArray(column, [1024, 2], false);
+    const wire = encodeArray(column, [1024, 2]);
     expect(wire).toEqual({ dtype: 'f32', shape: [1024, 2], data: bytesOf(column) });
     expect(hexBits(decodeArray(wire, 'column', 1 << 20) as Float32Array)).toEqual(hexBits(column));
   });
