@@ -149,7 +149,7 @@ function readAll(bytes: Uint8Array) {
   return n;
 }
 
-/** Step-block bytes per step in the committed samples (compressed as the demo writes them). */
+/** Step-block bytes per step in the committed samples (packed, as the demo writes them). */
 function sampleRatios(): { name: string; bytesPerStep: number; ratio: number }[] {
   const dir = join(import.meta.dirname, '..', 'samples');
   let names: string[] = [];
@@ -203,6 +203,7 @@ export function stepFileBench(): { rows: BenchRow[]; figures: Record<string, num
     recorderVsPlainCopy: copy.seconds / rec.seconds,
     readMBps: plainBytes.length / 1e6 / read.seconds,
     readCompressedMBps: packedBytes.length / 1e6 / readZ.seconds,
+    readCompressedStepsPerSecond: STEPS / readZ.seconds,
     readStepsPerSecond: STEPS / read.seconds,
     jsonLinesParseStepsPerSecond: STEPS / parse.seconds,
     readVsJsonLinesParse: parse.seconds / read.seconds,
@@ -223,6 +224,7 @@ export function stepFileBench(): { rows: BenchRow[]; figures: Record<string, num
     { what: '  recorder / plain copy', value: f.recorderVsPlainCopy, unit: '×', target: '≥ 0.333', ok: f.recorderVsPlainCopy >= 1 / 3 },
     { what: 'read to typed arrays', value: f.readMBps, unit: 'MB/s' },
     { what: 'read to typed arrays, compressed file', value: f.readCompressedMBps, unit: 'MB/s' },
+    { what: '  the same in steps', value: f.readCompressedStepsPerSecond, unit: 'steps/s' },
     { what: '  read / JSON Lines parse (steps/s)', value: f.readVsJsonLinesParse, unit: '×', target: '≥ 20', ok: f.readVsJsonLinesParse >= 20 },
   ];
   return { rows, figures: { ...f, ...Object.fromEntries(samples.map((s) => [`sample:${s.name}:ratioToRaw`, s.ratio])) } };

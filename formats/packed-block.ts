@@ -110,7 +110,7 @@ interface Choice {
   k: number;
 }
 
-/** The cheapest predictor of `lane` among `kinds` (and refs), judged on the first rows. */
+/** The cheapest of the candidate predictors of `lane`, judged on its first rows. */
 function choose(lane: Lane, candidates: Predictor[], lanes: Map<number, Lane>, rows: number, scratch: Uint32Array): Predictor {
   let best = candidates[0];
   let bestCost = Infinity;
