@@ -46,12 +46,28 @@ export interface EpisodeSeries {
   td: TdSeries | null;
 }
 
+/** The state after each row, N×D: row t+1's state, or the episode's final state after its last row (NaN if not recorded). */
 export function nextStates(e: EpisodeSteps, D: number): Float32Array {
   const next = new Float32Array(e.n * D);
   if (e.n > 1) next.set(e.state.subarray(D, e.n * D));
   if (e.n > 0) {
     if (e.end?.finalState) next.set(e.end.finalState, (e.n - 1) * D);
     else next.fill(NaN, (e.n - 1) * D);
+  }
+  return next;
+}
+
+/**
+ * The Q the online net recorded at the state after each row, N×A: row t+1's Q, or the episode's
+ * final Q after its last row (NaN if not recorded). Without an online snapshot, this is how the
+ * double rule learns the online net's choice at s_{t+1}.
+ */
+export function nextRecordedQ(e: EpisodeSteps, A: number): Float32Array {
+  const next = new Float32Array(e.n * A);
+  if (e.n > 1) next.set(e.q.subarray(A, e.n * A));
+  if (e.n > 0) {
+    if (e.end?.finalQ) next.set(e.end.finalQ, (e.n - 1) * A);
+    else next.fill(NaN, (e.n - 1) * A);
   }
   return next;
 }
@@ -81,18 +97,7 @@ export function episodeSeries(e: EpisodeSteps, header: Header, options: SeriesOp
     const targetNext = options.target(next, N);
     let onlineNext: Float32Array | null = null;
     const rule = options.td?.rule ?? 'dqn';
-    if (rule === 'double') {
-      if (options.online) onlineNext = options.online(next, N);
-      else {
-        // Without an online snapshot, the online net's choice at s_{t+1} is the Q it recorded there.
-        onlineNext = new Float32Array(N * A);
-        if (N > 1) onlineNext.set(q.subarray(A, N * A));
-        if (N > 0) {
-          if (e.end?.finalQ) onlineNext.set(e.end.finalQ, (N - 1) * A);
-          else onlineNext.fill(NaN, (N - 1) * A);
-        }
-      }
-    }
+    if (rule === 'double') onlineNext = options.online ? options.online(next, N) : nextRecordedQ(e, A);
     td = tdSeries(
       { n: N, actionCount: A, reward: e.reward, flags: e.flags, q, action: e.action, targetNext, onlineNext },
       { rule, gamma: options.td?.gamma ?? header.gamma, n: options.td?.n ?? 3, truncation: options.td?.truncation ?? 'bootstrap' },

@@ -80,33 +80,25 @@ function rowArgmax(values: Float32Array, row: number, m: number): number {
   return best;
 }
 
-function endsAt(flags: number, truncation: TruncationHandling): boolean {
-  return (flags & FLAG_TERMINAL) !== 0 || (truncation === 'terminal' && (flags & FLAG_TRUNCATED) !== 0);
-}
-
 export function tdSeries(inp: TdInputs, options: TdOptions): TdSeries {
   const { n: N, actionCount: A, reward, flags, q, action, targetNext, onlineNext } = inp;
   const { rule, gamma, truncation } = options;
   if (rule === 'double' && !onlineNext) throw new Error('the double rule needs the online Q at each next state');
   const steps = rule === 'nstep' ? options.n : 1;
   if (!Number.isInteger(steps) || steps < 1) throw new Error(`n-step needs n ≥ 1, got ${options.n}`);
-  const s: TdSeries = {
-    options,
-    reward,
-    discount: new Float64Array(N),
-    bootstrap: new Float64Array(N),
-    bootstrapped: new Uint8Array(N),
-    rewardSum: new Float64Array(N),
-    target: new Float64Array(N),
-    qTaken: new Float64Array(N),
-    delta: new Float64Array(N),
-    squared: new Float64Array(N),
-    huber: new Float64Array(N),
-    clipped: new Uint8Array(N),
-  };
-  // V at the state after row j, under the rule's bootstrap.
-  // A NaN among the next-state values makes the target NaN: a blow-up must stay visible downstream.
-  const value = (j: number) => (rule === 'double' ? doubleValue(targetNext, onlineNext!, j, A) : rowMax(targetNext, j * A, A));
+  const discount = new Float64Array(N);
+  const bootstrap = new Float64Array(N);
+  const bootstrapped = new Uint8Array(N);
+  const rewardSum = new Float64Array(N);
+  const target = new Float64Array(N);
+  const qTaken = new Float64Array(N);
+  const delta = new Float64Array(N);
+  const squared = new Float64Array(N);
+  const huberLoss = new Float64Array(N);
+  const clipped = new Uint8Array(N);
+  // The flags after which nothing bootstraps: terminal always, a time-limit cut only when asked.
+  const ends = FLAG_TERMINAL | (truncation === 'terminal' ? FLAG_TRUNCATED : 0);
+  const double = rule === 'double';
   for (let t = 0; t < N; t++) {
     let sum = 0;
     let g = 1;
@@ -117,32 +109,32 @@ export function tdSeries(inp: TdInputs, options: TdOptions): TdSeries {
       sum += g * reward[j];
       g *= gamma;
       last = j;
-      if (endsAt(flags[j], truncation)) {
+      if ((flags[j] & ends) !== 0) {
         stopped = true;
         break;
       }
     }
     const qa = q[t * A + action[t]];
-    s.rewardSum[t] = sum;
-    s.qTaken[t] = qa;
-    if (stopped) {
-      s.discount[t] = 0;
-      s.bootstrap[t] = 0;
-      s.target[t] = sum;
-    } else {
-      const v = value(last);
-      s.discount[t] = g;
-      s.bootstrap[t] = v;
-      s.bootstrapped[t] = 1;
-      s.target[t] = sum + g * v;
+    rewardSum[t] = sum;
+    qTaken[t] = qa;
+    let y = sum;
+    if (!stopped) {
+      // V at the state after row `last`, under the rule's bootstrap. A NaN among the next-state
+      // values makes the target NaN: a blow-up must stay visible downstream.
+      const v = double ? doubleValue(targetNext, onlineNext!, last, A) : rowMax(targetNext, last * A, A);
+      discount[t] = g;
+      bootstrap[t] = v;
+      bootstrapped[t] = 1;
+      y = sum + g * v;
     }
-    const d = s.target[t] - qa;
-    s.delta[t] = d;
-    s.squared[t] = d * d;
-    s.huber[t] = huber(d, 1);
-    s.clipped[t] = Math.abs(d) > 1 ? 1 : 0;
+    target[t] = y;
+    const d = y - qa;
+    delta[t] = d;
+    squared[t] = d * d;
+    huberLoss[t] = huber(d, 1);
+    clipped[t] = Math.abs(d) > 1 ? 1 : 0;
   }
-  return s;
+  return { options, reward, discount, bootstrap, bootstrapped, rewardSum, target, qTaken, delta, squared, huber: huberLoss, clipped };
 }
 
 function doubleValue(targetNext: Float32Array, onlineNext: Float32Array, row: number, A: number): number {

@@ -7,7 +7,7 @@ import type { Activation } from '../../formats/types.ts';
  * 0x7FC00000, zeroes 0xFFC00000 — and ∞ − ∞ or 0 · ∞ produce the latter), so where a NaN can occur
  * relu keeps every NaN explicitly. tf.maximum(h, 0) would too, but runs about 6× slower there.
  */
-export function activate(h: tf.Tensor2D, activation: Activation, keepNaN: boolean): tf.Tensor2D {
+export function activate<T extends tf.Tensor>(h: T, activation: Activation, keepNaN: boolean): T {
   switch (activation) {
     case 'linear':
       return h;
@@ -28,3 +28,22 @@ export function activate(h: tf.Tensor2D, activation: Activation, keepNaN: boolea
   }
 }
 
+/** The formats' activations that the fused matMul kernel can apply itself. */
+export type FusableActivation = 'linear' | 'relu' | 'sigmoid' | 'elu';
+
+/**
+ * Whether the `_FusedMatMul` kernel applies `activation` inside the matMul on both backends the
+ * evaluator runs on. Read from the 4.22 sources: tfjs-backend-wasm `FusableActivation`
+ * (dist/kernels/types.js: linear, relu, relu6, prelu, leakyrelu, sigmoid, elu) and
+ * tfjs-backend-cpu `applyActivation` (dist/utils/fused_utils.js: the same set); tanh and softplus
+ * are in neither.
+ *
+ * Fused, relu is XNNPACK's output clamp at 0 (tfjs-backend-wasm src/cc/batch_mat_mul_impl.cc,
+ * fused_batch_mat_mul), which on wasm turns *every* NaN into 0 (measured on 4.22, both sign bits),
+ * worse than tf.relu above; so fuse only where no NaN can arise. Fused
+ * sigmoid and elu gave bit-identical results to tf.sigmoid and tf.elu on wasm and cpu (measured on
+ * ±10^k for k from −38 to 38 in steps of ½, ±3e38 and every 0.01 in [−100, 100]), and kept NaN.
+ */
+export function fusable(activation: Activation): activation is FusableActivation {
+  return activation === 'linear' || activation === 'relu' || activation === 'sigmoid' || activation === 'elu';
+}

@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import { episodeSeries, nextStates } from '../../src/analysis/series.ts';
+import { episodeSeries, nextRecordedQ, nextStates } from '../../src/analysis/series.ts';
 import { recordInMemory, trolleyHeader } from './recording.ts';
 
 // Six steps, γ = 0.5 so every return is exact in binary. Step 3 has a NaN Q (for an action not
@@ -55,6 +55,12 @@ describe('episodeSeries on a recording with non-finite Q', () => {
 
   it('pairs each step with the state after it, the final state after the last', () => {
     expect(nextStates(file.readEpisode(0), 2)).toEqual(Float32Array.from([...states.slice(1), finalState].flat()));
+  });
+
+  it('pairs each step with the Q recorded after it, NaN after the last when no final Q was recorded', () => {
+    const next = nextRecordedQ(file.readEpisode(0), 3);
+    expect(Array.from(next.subarray(0, 15))).toEqual(qRows.slice(1).flat());
+    expect(Array.from(next.subarray(15), Number.isNaN)).toEqual([true, true, true]);
   });
 });
 

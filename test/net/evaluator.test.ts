@@ -108,6 +108,54 @@ describe.each(['wasm', 'cpu', 'js'] as const)('createQEvaluator on %s', (backend
   });
 });
 
+// The kernels a call ran, by name: what shows whether an activation ran inside the matMul.
+async function kernelsOf(e: QEvaluator, some: Float32Array, n: number): Promise<{ q: Float32Array; kernels: string[] }> {
+  let q: Float32Array = new Float32Array(0);
+  const info = await tf.profile(() => {
+    q = e.evaluate(some, n);
+  });
+  return { q, kernels: info.kernels.map((k) => k.name) };
+}
+
+describe.each(['wasm', 'cpu'] as const)('createQEvaluator on %s, activations inside the matMul kernel', (backend) => {
+  it.each(['relu', 'sigmoid', 'elu'] as const)(
+    'on a finite chunk, %s fused into the matMul gives the Q of the separate op, both within 1e-6 of forwardDense',
+    async (activation) => {
+      const net = randomLayers([4, 64, 64, 2], activation, 8);
+      const finite = randomStates(2000, 4, 46);
+      const reference = forwardDense(net, finite, 2000);
+      const fused = await createQEvaluator(net, { backend });
+      const unfused = await createQEvaluator(net, { backend, fuseActivations: false });
+      const a = await kernelsOf(fused, finite, 2000);
+      const b = await kernelsOf(unfused, finite, 2000);
+      fused.dispose();
+      unfused.dispose();
+      // Without this the test would pass just as well if nothing were fused.
+      expect(a.kernels).toEqual(['_FusedMatMul', '_FusedMatMul', '_FusedMatMul']);
+      expect(b.kernels.filter((k) => k !== '_FusedMatMul')).toHaveLength(2);
+      expect(mismatches(a.q, b.q, 2, 1e-6)).toEqual([]);
+      expect(mismatches(a.q, reference, 2, 1e-6)).toEqual([]);
+      expect(mismatches(b.q, reference, 2, 1e-6)).toEqual([]);
+    },
+  );
+
+  it('with fusion on, a chunk holding a NaN still gives NaN in its row, and the finite chunk beside it is fused', async () => {
+    // A NaN with its sign bit clear: tf.relu on wasm keeps it, but the fused relu would make it 0
+    // and the row's Q finite, so this fails if a chunk at risk were ever fused.
+    const some = randomStates(200, 4, 47);
+    new Uint32Array(some.buffer)[150 * 4 + 3] = 0x7fc00000;
+    const e = await createQEvaluator(layers, { backend, chunkRows: 100 });
+    const { q, kernels } = await kernelsOf(e, some, 200);
+    e.dispose();
+    const nanRows = Array.from({ length: 200 }, (_, r) => r).filter((r) => Number.isNaN(q[2 * r]) || Number.isNaN(q[2 * r + 1]));
+    expect(nanRows).toEqual([150]);
+    expect(mismatches(q, forwardDense(layers, some, 200), 2, 1e-6)).toEqual([]);
+    // Rows 0–99 in three fused matMuls; rows 100–199 with relu kept apart, once per hidden layer.
+    expect(kernels.filter((k) => k === '_FusedMatMul')).toHaveLength(6);
+    expect(kernels.filter((k) => k === 'Relu')).toHaveLength(2);
+  });
+});
+
 describe('createQEvaluator, backend choice', () => {
   it("'auto' runs on wasm, or says in its note that wasm could not start", async () => {
     const e = await createQEvaluator(layers);
