@@ -13,7 +13,7 @@
  * final state after its last row.
  */
 import { huber } from './losses.ts';
-import { rowMax } from '../agent/targets.ts';
+import { rowArgmax, rowMax } from '../agent/targets.ts';
 import { FLAG_TERMINAL, FLAG_TRUNCATED } from '../../formats/types.ts';
 
 export type TdRule = 'dqn' | 'double' | 'nstep';
@@ -65,19 +65,6 @@ export interface TdSeries {
   huber: Float64Array;
   /** |δ| > 1: an error clip at ±1 (Huber with δ = 1) would bite. */
   clipped: Uint8Array;
-}
-
-function rowArgmax(values: Float32Array, row: number, m: number): number {
-  let best = -1;
-  let bestV = -Infinity;
-  for (let a = 0; a < m; a++) {
-    const v = values[row * m + a];
-    if (v - v === 0 && (best < 0 || v > bestV)) {
-      best = a;
-      bestV = v;
-    }
-  }
-  return best;
 }
 
 export function tdSeries(inp: TdInputs, options: TdOptions): TdSeries {
@@ -137,7 +124,11 @@ export function tdSeries(inp: TdInputs, options: TdOptions): TdSeries {
   return { options, reward, discount, bootstrap, bootstrapped, rewardSum, target, qTaken, delta, squared, huber: huberLoss, clipped };
 }
 
+/**
+ * The double rule's bootstrap, chosen as the trainer chooses it (src/agent/targets.ts): a NaN among
+ * the online Q makes the choice, and so the target, NaN; +Infinity is a largest value like any other.
+ */
 function doubleValue(targetNext: Float32Array, onlineNext: Float32Array, row: number, A: number): number {
-  const a = rowArgmax(onlineNext, row, A);
+  const a = rowArgmax(onlineNext, row * A, A);
   return a < 0 ? NaN : targetNext[row * A + a];
 }

@@ -110,6 +110,19 @@ describe('tdSeries: the pieces add up', () => {
     expect(Number.isNaN(s.target[0])).toBe(true);
     expect(Number.isNaN(s.delta[0])).toBe(true);
   });
+
+  it('under the double rule, makes the target NaN when the online Q at the next state holds a NaN, as the trainer does', () => {
+    const s = tdSeries({ ...inputs({ reward: [1], flags: [0], q: [[0, 0]], action: [0], targetNext: [[2, 3]] }), onlineNext: Float32Array.of(NaN, 5) }, options({ rule: 'double' }));
+    expect(Number.isNaN(s.target[0])).toBe(true);
+    expect(Number.isNaN(s.delta[0])).toBe(true);
+  });
+
+  it('under the double rule, lets an online Q of +Infinity choose the action whose target value is used', () => {
+    // argmax picks the infinite action 1; the target net values it at 3 (van Hasselt et al. 2016, eq. 4).
+    const s = tdSeries({ ...inputs({ reward: [1], flags: [0], q: [[0, 0]], action: [0], targetNext: [[2, 3]] }), onlineNext: Float32Array.of(5, Infinity) }, options({ rule: 'double', gamma: 0.5 }));
+    expect(s.bootstrap[0]).toBe(3);
+    expect(s.target[0]).toBe(2.5);
+  });
 });
 
 describe('tdSeries: n-step returns (Sutton & Barto 2018, eq. 7.1)', () => {
