@@ -46,15 +46,20 @@ export interface EpisodeSeries {
   td: TdSeries | null;
 }
 
-/** The state after each row, N×D: row t+1's state, or the episode's final state after its last row (NaN if not recorded). */
-export function nextStates(e: EpisodeSteps, D: number): Float32Array {
-  const next = new Float32Array(e.n * D);
-  if (e.n > 1) next.set(e.state.subarray(D, e.n * D));
-  if (e.n > 0) {
-    if (e.end?.finalState) next.set(e.end.finalState, (e.n - 1) * D);
-    else next.fill(NaN, (e.n - 1) * D);
+/** Rows 1…n−1 of an n×width array moved up one row, and `last` (or NaN where it is not recorded) after them. */
+function nextRows(values: Float32Array, n: number, width: number, last: Float32Array | null | undefined): Float32Array {
+  const next = new Float32Array(n * width);
+  if (n > 1) next.set(values.subarray(width, n * width));
+  if (n > 0) {
+    if (last) next.set(last, (n - 1) * width);
+    else next.fill(NaN, (n - 1) * width);
   }
   return next;
+}
+
+/** The state after each row, N×D: row t+1's state, or the episode's final state after its last row (NaN if not recorded). */
+export function nextStates(e: EpisodeSteps, D: number): Float32Array {
+  return nextRows(e.state, e.n, D, e.end?.finalState);
 }
 
 /**
@@ -63,13 +68,7 @@ export function nextStates(e: EpisodeSteps, D: number): Float32Array {
  * double rule learns the online net's choice at s_{t+1}.
  */
 export function nextRecordedQ(e: EpisodeSteps, A: number): Float32Array {
-  const next = new Float32Array(e.n * A);
-  if (e.n > 1) next.set(e.q.subarray(A, e.n * A));
-  if (e.n > 0) {
-    if (e.end?.finalQ) next.set(e.end.finalQ, (e.n - 1) * A);
-    else next.fill(NaN, (e.n - 1) * A);
-  }
-  return next;
+  return nextRows(e.q, e.n, A, e.end?.finalQ);
 }
 
 export function episodeSeries(e: EpisodeSteps, header: Header, options: SeriesOptions = {}): EpisodeSeries {
