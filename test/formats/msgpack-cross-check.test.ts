@@ -73,59 +73,6 @@ describe.each([false, true])('a step file decoded independently (compress %s)', 
     expect(decode(frames[0].payload)).toEqual({ format: 'episcope step file', version: compress ? 2 : 1, ...HEADER });
   });
 
-  // The values of the first block (rows 0–3), as little-endian bytes.
-  const expected = {
-    state: bytesOf(states.subarray(0, 8)),
-    action: Uint8Array.of(0, 1, 2, 0),
-    reward: bytesOf(Float32Array.of(-1, -1, -1, -1)),
-    flags: Uint8Array.of(0, 4, 0, 0),
-    q: bytesOf(Float32Array.of(-0, -0.5, -0.25, -1, -1.5, -1.25, -2, -2.5, -2.25, -3, -3.5, -3.25)),
-    epsilon: bytesOf(Float32Array.of(0.5, 0.5, 0.5, 0.5)),
-    tdError: bytesOf(Float32Array.of(0, 0.125, NaN, 0.375)),
-  };
-
-  it.runIf(!compress)('writes a step-block payload that decodes to the same values, columns as little-endian bytes', () => {
-    const block = decode(frames[1].payload) as Record<string, any>;
-    expect(Object.keys(block).sort()).toEqual(['action', 'episode', 'epsilon', 'extras', 'firstStep', 'flags', 'n', 'q', 'reward', 'state', 'weights']);
-    expect([block.episode, block.firstStep, block.n]).toEqual([0, 0, 4]);
-    expect(block.weights).toEqual([[0, '', '']]);
-    const column = (name: string, dtype: string, shape: number[], values: Uint8Array) => {
-      const wire = name === 'tdError' ? block.extras[name] : block[name];
-      expect([wire.dtype, wire.shape], name).toEqual([dtype, shape]);
-      expect(decodeArrayMapBySpec(wire), name).toEqual(values);
-    };
-    column('state', 'f32', [4, 2], expected.state);
-    column('action', 'u8', [4], expected.action);
-    column('reward', 'f32', [4], expected.reward);
-    column('flags', 'u8', [4], expected.flags);
-    column('q', 'f32', [4, 3], expected.q);
-    column('epsilon', 'f32', [4], expected.epsilon);
-    column('tdError', 'f32', [4], expected.tdError);
-  });
-
-  it.runIf(compress)('writes a packed step block (SPEC §5.2) whose lanes decode by the SPEC alone to the same values', () => {
-    const block = decode(frames[1].payload);
-    expect(block).toBeInstanceOf(Uint8Array);
-    const packed = decodePackedBySpec(block as Uint8Array, 4, 2, 3, 1);
-    expect(packed.place).toEqual({ episode: 0, firstStep: 0, n: 4 });
-    expect(packed.weights).toEqual([[0, '', '']]);
-    // Lanes: position 0, velocity 1, Q 2–4, reward 5, action 6, flags 7, ε 8, tdError 9 (D = 2, A = 3).
-    expect([...packed.lanes.keys()].sort((a, b) => a - b)).toEqual([0, 1, 2, 3, 4, 5, 6, 7, 8, 9]);
-    const f32Bytes = (...ids: number[]) => {
-      const width = ids.length;
-      const out = new Uint32Array(4 * width);
-      ids.forEach((id, j) => packed.lanes.get(id)!.forEach((v, t) => (out[t * width + j] = v)));
-      return bytesOf(out);
-    };
-    expect(f32Bytes(0, 1)).toEqual(expected.state);
-    expect(Uint8Array.from(packed.lanes.get(6)!)).toEqual(expected.action);
-    expect(f32Bytes(5)).toEqual(expected.reward);
-    expect(Uint8Array.from(packed.lanes.get(7)!)).toEqual(expected.flags);
-    expect(f32Bytes(2, 3, 4)).toEqual(expected.q);
-    expect(f32Bytes(8)).toEqual(expected.epsilon);
-    expect(f32Bytes(9)).toEqual(expected.tdError);
-  });
-
   it('writes episode end and note payloads that decode to the same values', () => {
     const end = decode(frames[3].payload) as Record<string, any>;
     expect({ ...end, finalState: undefined }).toEqual({
@@ -167,6 +114,63 @@ describe.each([false, true])('a step file decoded independently (compress %s)', 
     const view = new DataView(trailer.payload.buffer, trailer.payload.byteOffset, 8);
     expect(view.getBigUint64(0, true)).toBe(BigInt(frames[5].offset));
   });
+});
+
+describe('the first step block of that file, decoded independently', () => {
+  const { states } = recordRover(false);
+  // The values of the first block (rows 0–3), as little-endian bytes.
+  const expected = {
+    state: bytesOf(states.subarray(0, 8)),
+    action: Uint8Array.of(0, 1, 2, 0),
+    reward: bytesOf(Float32Array.of(-1, -1, -1, -1)),
+    flags: Uint8Array.of(0, 4, 0, 0),
+    q: bytesOf(Float32Array.of(-0, -0.5, -0.25, -1, -1.5, -1.25, -2, -2.5, -2.25, -3, -3.5, -3.25)),
+    epsilon: bytesOf(Float32Array.of(0.5, 0.5, 0.5, 0.5)),
+    tdError: bytesOf(Float32Array.of(0, 0.125, NaN, 0.375)),
+  };
+
+  it('writes an unpacked step-block payload (version 1) that decodes to the same values, columns as little-endian bytes', () => {
+    const block = decode(walkFrames(recordRover(false).bytes)[1].payload) as Record<string, any>;
+    expect(Object.keys(block).sort()).toEqual(['action', 'episode', 'epsilon', 'extras', 'firstStep', 'flags', 'n', 'q', 'reward', 'state', 'weights']);
+    expect([block.episode, block.firstStep, block.n]).toEqual([0, 0, 4]);
+    expect(block.weights).toEqual([[0, '', '']]);
+    const column = (name: string, dtype: string, shape: number[], values: Uint8Array) => {
+      const wire = name === 'tdError' ? block.extras[name] : block[name];
+      expect([wire.dtype, wire.shape], name).toEqual([dtype, shape]);
+      expect(decodeArrayMapBySpec(wire), name).toEqual(values);
+    };
+    column('state', 'f32', [4, 2], expected.state);
+    column('action', 'u8', [4], expected.action);
+    column('reward', 'f32', [4], expected.reward);
+    column('flags', 'u8', [4], expected.flags);
+    column('q', 'f32', [4, 3], expected.q);
+    column('epsilon', 'f32', [4], expected.epsilon);
+    column('tdError', 'f32', [4], expected.tdError);
+  });
+
+  it('writes a packed step block (SPEC §5.2) whose lanes decode by the SPEC alone to the same values', () => {
+    const block = decode(walkFrames(recordRover(true).bytes)[1].payload);
+    expect(block).toBeInstanceOf(Uint8Array);
+    const packed = decodePackedBySpec(block as Uint8Array, 4, 2, 3, 1);
+    expect(packed.place).toEqual({ episode: 0, firstStep: 0, n: 4 });
+    expect(packed.weights).toEqual([[0, '', '']]);
+    // Lanes: position 0, velocity 1, Q 2–4, reward 5, action 6, flags 7, ε 8, tdError 9 (D = 2, A = 3).
+    expect([...packed.lanes.keys()].sort((a, b) => a - b)).toEqual([0, 1, 2, 3, 4, 5, 6, 7, 8, 9]);
+    const f32Bytes = (...ids: number[]) => {
+      const width = ids.length;
+      const out = new Uint32Array(4 * width);
+      ids.forEach((id, j) => packed.lanes.get(id)!.forEach((v, t) => (out[t * width + j] = v)));
+      return bytesOf(out);
+    };
+    expect(f32Bytes(0, 1)).toEqual(expected.state);
+    expect(Uint8Array.from(packed.lanes.get(6)!)).toEqual(expected.action);
+    expect(f32Bytes(5)).toEqual(expected.reward);
+    expect(Uint8Array.from(packed.lanes.get(7)!)).toEqual(expected.flags);
+    expect(f32Bytes(2, 3, 4)).toEqual(expected.q);
+    expect(f32Bytes(8)).toEqual(expected.epsilon);
+    expect(f32Bytes(9)).toEqual(expected.tdError);
+  });
+
 });
 
 /** Every value in a decoded payload, depth first. */
