@@ -211,7 +211,8 @@ function drawArrow(g: Graphics, arrow: Arrow, explored: boolean): void {
       g.moveTo(arrow.x0 + ux * from, arrow.y0 + uy * from).lineTo(arrow.x0 + ux * to, arrow.y0 + uy * to);
     }
     g.stroke({ width: 2.5, color: colour.explored });
-    g.poly(head).fill({ color: colour.panel }).stroke({ width: 2, color: colour.explored, join: 'round' });
+    // Closed explicitly: Pixi's 2D-canvas renderer leaves a poly's outline open unless told.
+    g.poly(head, true).fill({ color: colour.panel }).stroke({ width: 2, color: colour.explored, join: 'round' });
   } else {
     g.moveTo(arrow.x0, arrow.y0).lineTo(baseX, baseY).stroke({ width: 3, color: colour.greedy });
     g.poly(head).fill({ color: colour.greedy });
