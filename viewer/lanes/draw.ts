@@ -1,5 +1,5 @@
 /**
- * Drawing one lane into a Canvas 2D context, and the cursor into the overlay canvas.
+ * Drawing one lane into a Canvas 2D context, and where the cursor line over the lanes goes.
  *
  * Canvas 2D (not Pixi) because a lane is crisp 1-px lines and small text. The input is M4 output
  * (`decimate.ts`), so a redraw costs a bar or four points per pixel column whatever the episode's
@@ -152,30 +152,21 @@ export function drawLane(ctx: CanvasRenderingContext2D, f: LaneFrame): void {
   rule(ctx, dpr, 0, height - 0.5, width, palette.rule);
 }
 
-export interface CursorFrame {
+/** A vertical line over the lanes, in CSS px: its left edge and its width. */
+export interface LineBox {
+  left: number;
   width: number;
-  height: number;
-  dpr: number;
-  view: ViewRange;
-  /** The current step, and the hovered one (drawn fainter); null for none. */
-  cursor: number | null;
-  hover?: number | null;
 }
 
-/** Clear the overlay and draw the cursor (and hover) line at the centre of its step. */
-export function drawCursor(ctx: CanvasRenderingContext2D, f: CursorFrame): void {
-  const { width, height, dpr, view } = f;
-  ctx.setTransform(1, 0, 0, 1, 0, 0);
-  ctx.clearRect(0, 0, Math.ceil(width * dpr), Math.ceil(height * dpr));
-  const plotWidth = Math.max(1, width - LANE_GUTTER);
-  const line = (step: number, colour: string, cssWidth: number) => {
-    const x = LANE_GUTTER + stepToX(step + 0.5, view, plotWidth);
-    if (x < LANE_GUTTER || x > width) return;
-    // Whole device pixels, centred on the step, so the line is sharp at any dpr.
-    const w = Math.max(1, Math.round(cssWidth * dpr));
-    ctx.fillStyle = colour;
-    ctx.fillRect(Math.round(x * dpr - w / 2), 0, w, Math.ceil(height * dpr));
-  };
-  if (f.hover != null && f.hover !== f.cursor) line(f.hover, palette.inkFaint, 1);
-  if (f.cursor != null) line(f.cursor, palette.cursor, 1.5);
+/**
+ * Where the line marking a step sits over the lanes: centred on the step's slot and snapped to
+ * whole device pixels, so a line `cssWidth` wide stays sharp at any dpr; null when the step is
+ * outside the view. The line is an element the browser moves without repainting the lanes.
+ */
+export function stepLine(step: number, f: { width: number; dpr: number; view: ViewRange }, cssWidth: number): LineBox | null {
+  const plotWidth = Math.max(1, f.width - LANE_GUTTER);
+  const x = LANE_GUTTER + stepToX(step + 0.5, f.view, plotWidth);
+  if (!(x >= LANE_GUTTER && x <= f.width)) return null;
+  const w = Math.max(1, Math.round(cssWidth * f.dpr));
+  return { left: Math.round(x * f.dpr - w / 2) / f.dpr, width: w / f.dpr };
 }
