@@ -11,6 +11,7 @@ import { episodeSeries, type QFunction } from '../../src/analysis/series.ts';
 import { targetTimeline, type TargetTimeline } from '../../src/analysis/target-age.ts';
 import type { TdOptions, TdSeries } from '../../src/analysis/td.ts';
 import { forwardDense } from '../../src/net/forward.ts';
+import { ForwardCache, layersFingerprint } from './forward-cache.ts';
 import type { AnalysisPayload, SeriesPayload, TargetSpec } from './protocol.ts';
 
 interface OpenFile {
@@ -21,6 +22,8 @@ interface OpenFile {
 
 export class AnalysisEngine {
   private files = new Map<string, OpenFile>();
+  /** The series and the suspects of an episode share one forward pass of its target network. */
+  private forward = new ForwardCache();
 
   open(key: string, name: string, bytes: Uint8Array): void {
     this.files.set(key, { file: openStepFile(bytesSource(bytes), name), timeline: null, layersById: new Map() });
@@ -28,13 +31,13 @@ export class AnalysisEngine {
 
   analyse(key: string, target: TargetSpec, td: TdOptions): AnalysisPayload {
     const entry = this.entry(key);
-    return analyseFile(entry.file, { targetFor: (episode) => this.targetFor(entry, target, episode)?.q ?? null, td });
+    return analyseFile(entry.file, { targetFor: (episode) => this.targetFor(key, entry, target, episode)?.q ?? null, td });
   }
 
   series(key: string, episode: number, target: TargetSpec, td: TdOptions): SeriesPayload {
     const entry = this.entry(key);
     const steps = entry.file.readEpisode(episode);
-    const net = this.targetFor(entry, target, episode);
+    const net = this.targetFor(key, entry, target, episode);
     const s = episodeSeries(steps, entry.file.header, { target: net?.q ?? null, td });
     entry.timeline ??= targetTimeline(entry.file);
     const age = entry.timeline.age.get(episode) ?? new Uint32Array(s.n);
@@ -62,9 +65,9 @@ export class AnalysisEngine {
   }
 
   /** The target network for an episode under a spec, with a description, or null. */
-  private targetFor(entry: OpenFile, spec: TargetSpec, episode: number): { q: QFunction; source: string } | null {
+  private targetFor(key: string, entry: OpenFile, spec: TargetSpec, episode: number): { q: QFunction; source: string } | null {
     if (spec.kind === 'none') return null;
-    if (spec.kind === 'net') return { q: (states, n) => forwardDense(spec.net.layers, states, n), source: spec.net.source };
+    if (spec.kind === 'net') return { q: this.cachedForward(key, episode, spec.net.layers), source: spec.net.source };
     const info = entry.file.episode(episode);
     if (info.blocks.length === 0) return null;
     const id = entry.file.readBlock(info.blocks[0]).weights[0]?.[2] ?? '';
@@ -77,8 +80,15 @@ export class AnalysisEngine {
     }
     if (!layers) return null; // weights named in force but never stored
     const ref = entry.file.snapshotById(id)!;
-    const l = layers;
-    return { q: (states, n) => forwardDense(l, states, n), source: `target in force (training step ${ref.trainingStep}, id ${id})` };
+    return { q: this.cachedForward(key, episode, layers), source: `target in force (training step ${ref.trainingStep}, id ${id})` };
+  }
+
+  /**
+   * The network as a Q-function whose answers are kept per file, episode and network content
+   * (not its id: every model folder is called 'model').
+   */
+  private cachedForward(key: string, episode: number, layers: DenseLayer[]): QFunction {
+    return this.forward.wrap(`${key}\u0000${episode}\u0000${layersFingerprint(layers)}`, (states, n) => forwardDense(layers, states, n));
   }
 }
 
