@@ -15,8 +15,36 @@
  *   keydown event's timestamp to the first task after the rendering step of the frame in which the
  *   Readout shows the new step (requestAnimationFrame, then a posted message: that frame's
  *   effects, Stage render, style, layout and paint are in). "Readout updated" is the part up to the
- *   Readout's DOM changing, before waiting for the frame. The floor under both: the same path
- *   for a key the viewer ignores ('x'), i.e. the browser's own wait for and cost of a frame.
+ *   Readout's DOM changing, before waiting for the frame. The floor: the same path for a key the
+ *   viewer ignores ('x'), i.e. the browser's own wait for and cost of a frame.
+ *
+ * The scrub step is measured twice, in two browsers, on the same file:
+ *
+ * - at 60 Hz: Chromium as the tests run it, its frames locked to a 60 Hz clock; each key is
+ *   pressed as soon as the previous step is painted, and the harness waits by polling on every
+ *   animation frame. Every figure then includes a wait for the next tick of that clock, up to
+ *   16.7 ms, whose length depends on where in the tick the key lands, not on the viewer. Paced by
+ *   the previous frame and the harness's round trip, a key tends to land just after a tick, so
+ *   the figure sits near the floor plus the step's work; but the ignored key and the scrub keys
+ *   need not land at the same phase, so the floor is the size of that wait, not a lower bound.
+ * - frame rate unlocked (`--disable-frame-rate-limit --disable-gpu-vsync`): a frame starts as soon
+ *   as one is needed. Each key is pressed once the previous step is painted and the page has then
+ *   been left alone for PAUSE_MS, and the harness waits on a callback, not by asking for frames,
+ *   so every press finds the browser idle, as a person's key presses do (key repeat is some 30 a
+ *   second). Without the pause, a key pressed straight after a frame still waited for a 60 Hz
+ *   tick here (the floor was ~13 ms instead of ~2): Chromium keeps pacing frames that change
+ *   nothing at 60 Hz when unlocked (a requestAnimationFrame loop that changes nothing ran at ~60).
+ *   The end point is the same as at 60 Hz: the painted frame that shows the new step. Its floor,
+ *   and the frame rate of a loop that changes a pixel each frame, are printed beside it to show
+ *   that the limit really is lifted. Only the 1,000,000-step episode is measured this way.
+ *
+ * The ≤ 16 ms target is judged on the unlocked figure. The target says a step must cost no more
+ * than one frame at 60 Hz; the unlocked figure is that cost: the input, the viewer's own work and
+ * the browser's work for the frame that shows the step, with no wait for a clock the display
+ * sets. At 60 Hz the floor alone is ~14 ms with this pacing, so that figure could meet the
+ * target only for a step that cost the browser almost nothing, whatever the viewer did. It
+ * stays beside the target figure, with its floor, because it is what a 60 Hz screen adds on top,
+ * and work that spills into the next frame shows there first.
  */
 import { mkdtempSync, rmSync, statSync } from 'node:fs';
 import { tmpdir } from 'node:os';
@@ -120,7 +148,11 @@ const WATCH_FIRST_FRAME = `(() => {
   requestAnimationFrame(check);
 })()`;
 
-/** Installed once the page is steady: one latency pair per change of the Readout's step. */
+/**
+ * Installed once the page is steady: one latency pair per change of the Readout's step. Each
+ * painted figure also calls `window.__benchNotify`, so a harness can wait without asking the page
+ * for frames.
+ */
 const WATCH_SCRUB = `(() => {
   const out = (window.__scrub = { handled: [], painted: [] });
   let pressed = null;
@@ -137,7 +169,10 @@ const WATCH_SCRUB = `(() => {
     out.handled.push(performance.now() - start);
     requestAnimationFrame(() => {
       const channel = new MessageChannel();
-      channel.port1.onmessage = () => out.painted.push(performance.now() - start);
+      channel.port1.onmessage = () => {
+        out.painted.push(performance.now() - start);
+        window.__benchNotify?.();
+      };
       channel.port2.postMessage(null);
     });
   }).observe(document.querySelector('[data-testid=readout]'), { subtree: true, childList: true, characterData: true });
@@ -151,11 +186,36 @@ const WATCH_IDLE = `(() => {
     const start = e.timeStamp;
     requestAnimationFrame(() => {
       const channel = new MessageChannel();
-      channel.port1.onmessage = () => out.push(performance.now() - start);
+      channel.port1.onmessage = () => {
+        out.push(performance.now() - start);
+        window.__benchNotify?.();
+      };
       channel.port2.postMessage(null);
     });
   }, true);
 })()`;
+
+/**
+ * Frames in one second of a requestAnimationFrame loop that changes one pixel each frame: ~60
+ * when the rate is locked. (A frame that changes nothing is paced at 60 Hz even when unlocked.)
+ */
+const FRAME_RATE = `new Promise((resolve) => {
+  const dot = document.body.appendChild(document.createElement('div'));
+  dot.style.cssText = 'position: fixed; left: 0; top: 0; width: 1px; height: 1px';
+  let frames = 0;
+  const start = performance.now();
+  const tick = (now) => {
+    frames++;
+    dot.style.background = frames % 2 ? '#000' : '#fff';
+    if (now - start < 1000) return requestAnimationFrame(tick);
+    dot.remove();
+    resolve((frames * 1000) / (now - start));
+  };
+  requestAnimationFrame(tick);
+})`;
+
+/** How long the page is left alone between presses when the frame rate is unlocked. */
+const PAUSE_MS = 40;
 
 const median = (xs: number[]) => quantile(xs, 0.5);
 function quantile(xs: number[], p: number): number {
@@ -163,17 +223,24 @@ function quantile(xs: number[], p: number): number {
   return sorted[Math.max(0, Math.ceil(p * sorted.length) - 1)];
 }
 
-interface Measured {
+interface Loaded {
   firstFrame: number;
   seriesReady: number;
   suspectsReady: number;
-  scrubMedian: number;
-  scrubP95: number;
-  handledMedian: number;
-  idleMedian: number;
 }
 
-async function measure(page: Page, url: string, name: string, steps: number): Promise<Measured> {
+interface Scrub {
+  median: number;
+  p95: number;
+  handledMedian: number;
+  idleMedian: number;
+  frameRate: number;
+}
+
+/** How the harness waits for each painted step: see the header. */
+type Pacing = 'back-to-back' | 'paced';
+
+async function load(page: Page, url: string, name: string): Promise<Loaded> {
   // A new document each time (a hash change alone would not reload), so the clock starts at zero.
   await page.goto('about:blank');
   await page.goto(`${url}#file=${encodeURIComponent(name)}&episode=0&step=0`);
@@ -186,29 +253,55 @@ async function measure(page: Page, url: string, name: string, steps: number): Pr
     null,
     { timeout: 120_000, polling: 100 },
   );
-  const { firstFrame, seriesReady, suspectsReady } = (await timing.jsonValue()) as Record<string, number>;
+  return (await timing.jsonValue()) as unknown as Loaded;
+}
 
+/** Wait until the page holds more than `count` figures in the list `which` names. */
+async function waitForFigure(page: Page, which: 'idle' | 'painted', count: number, pacing: Pacing): Promise<void> {
+  if (pacing === 'back-to-back') {
+    await page.waitForFunction(
+      ([w, c]) => {
+        const win = window as unknown as { __idle: number[]; __scrub: { painted: number[] } };
+        return (w === 'idle' ? win.__idle : win.__scrub.painted).length > c;
+      },
+      [which, count] as const,
+      { polling: 'raf' },
+    );
+    return;
+  }
+  const list = which === 'idle' ? 'window.__idle' : 'window.__scrub.painted';
+  await page.evaluate(`new Promise((resolve) => {
+    const done = () => ${list}.length > ${count};
+    if (done()) return resolve(null);
+    window.__benchNotify = () => { if (done()) { window.__benchNotify = null; resolve(null); } };
+  })`);
+  await new Promise((r) => setTimeout(r, PAUSE_MS));
+}
+
+async function measureScrub(page: Page, steps: number, pacing: Pacing): Promise<Scrub> {
+  const frameRate = (await page.evaluate(FRAME_RATE)) as number;
   await page.evaluate(WATCH_IDLE);
   for (let i = 0; i < 40; i++) {
     await page.keyboard.press('x');
-    await page.waitForFunction((count) => (window as unknown as { __idle: number[] }).__idle.length > count, i, { polling: 'raf' });
+    await waitForFigure(page, 'idle', i, pacing);
   }
   const idle = (await page.evaluate('window.__idle')) as number[];
 
   await page.evaluate(WATCH_SCRUB);
-  let row = 0;
+  let row = Number(await page.getByTestId('readout-step').textContent());
+  const first = row;
   let direction = 1;
   for (let i = 0; i < SCRUB_PRESSES; i++) {
     const by = i % 2 === 0 ? 1 : 10;
     if (row + direction * by < 0 || row + direction * by > steps - 1) direction = -direction;
     row += direction * by;
     await page.keyboard.press(`${by === 10 ? 'Shift+' : ''}${direction > 0 ? 'ArrowRight' : 'ArrowLeft'}`);
-    await page.waitForFunction((count) => (window as unknown as { __scrub: { painted: number[] } }).__scrub.painted.length > count, i, { polling: 'raf' });
+    await waitForFigure(page, 'painted', i, pacing);
   }
   const shownStep = Number(await page.getByTestId('readout-step').textContent());
-  if (shownStep !== row) throw new Error(`viewer bench: after ${SCRUB_PRESSES} presses the Readout shows step ${shownStep}; expected ${row}`);
+  if (shownStep !== row) throw new Error(`viewer bench: after ${SCRUB_PRESSES} presses from step ${first} the Readout shows step ${shownStep}; expected ${row}`);
   const { handled, painted } = (await page.evaluate('window.__scrub')) as { handled: number[]; painted: number[] };
-  return { firstFrame, seriesReady, suspectsReady, scrubMedian: median(painted), scrubP95: quantile(painted, 0.95), handledMedian: median(handled), idleMedian: median(idle) };
+  return { median: median(painted), p95: quantile(painted, 0.95), handledMedian: median(handled), idleMedian: median(idle), frameRate };
 }
 
 export async function viewerBench(): Promise<{ rows: BenchRow[]; figures: Record<string, number> }> {
@@ -218,54 +311,92 @@ export async function viewerBench(): Promise<{ rows: BenchRow[]; figures: Record
     const smallPath = join(dir, 'small.steps');
     writeEpisode(bigPath, BIG, 11);
     writeEpisode(smallPath, SMALL, 11);
-    const viewer = await startViewer([
+    const files = [
       { path: bigPath, name: 'million.steps' },
       { path: smallPath, name: 'small.steps' },
-    ]);
-    let big: Measured, small: Measured;
-    try {
-      await viewer.context.addInitScript({ content: WATCH_FIRST_FRAME });
-      const page = await viewer.open('');
-      // The small one first: it also warms the browser's cache of the viewer's own files.
-      small = await measure(page, viewer.url, 'small.steps', SMALL);
-      big = await measure(page, viewer.url, 'million.steps', BIG);
-      const problems = viewer.takeProblems();
-      if (problems.length) throw new Error(`viewer bench: the page reported problems:\n${problems.join('\n')}`);
-    } finally {
-      await viewer.close();
+    ];
+
+    // At 60 Hz, as the tests run Chromium: loading, and scrubbing both episodes.
+    let big: Loaded & { locked: Scrub }, small: Loaded & { locked: Scrub };
+    {
+      const viewer = await startViewer(files);
+      try {
+        await viewer.context.addInitScript({ content: WATCH_FIRST_FRAME });
+        const page = await viewer.open('');
+        // The small one first: it also warms the browser's cache of the viewer's own files.
+        const smallLoaded = await load(page, viewer.url, 'small.steps');
+        small = { ...smallLoaded, locked: await measureScrub(page, SMALL, 'back-to-back') };
+        const bigLoaded = await load(page, viewer.url, 'million.steps');
+        big = { ...bigLoaded, locked: await measureScrub(page, BIG, 'back-to-back') };
+        const problems = viewer.takeProblems();
+        if (problems.length) throw new Error(`viewer bench: the page reported problems:\n${problems.join('\n')}`);
+      } finally {
+        await viewer.close();
+      }
     }
+
+    // The frame rate unlocked: what a scrub step costs, without a wait for a display's clock.
+    let unlocked: Scrub;
+    {
+      const viewer = await startViewer(files, { chromiumArgs: ['--disable-frame-rate-limit', '--disable-gpu-vsync'] });
+      try {
+        await viewer.context.addInitScript({ content: WATCH_FIRST_FRAME });
+        const page = await viewer.open('');
+        await load(page, viewer.url, 'million.steps');
+        unlocked = await measureScrub(page, BIG, 'paced');
+        const problems = viewer.takeProblems();
+        if (problems.length) throw new Error(`viewer bench: the page reported problems (frame rate unlocked):\n${problems.join('\n')}`);
+      } finally {
+        await viewer.close();
+      }
+    }
+
     const mb = statSync(bigPath).size / 1e6;
     const figures: Record<string, number> = {
       fileMegabytes: mb,
       firstFrameMs: big.firstFrame,
       seriesReadyMs: big.seriesReady,
       suspectsReadyMs: big.suspectsReady,
-      scrubMedianMs: big.scrubMedian,
-      scrubP95Ms: big.scrubP95,
-      readoutUpdatedMedianMs: big.handledMedian,
-      idleFrameMedianMs: big.idleMedian,
+      // At 60 Hz, as this bench has always measured them.
+      scrubMedianMs: big.locked.median,
+      scrubP95Ms: big.locked.p95,
+      readoutUpdatedMedianMs: big.locked.handledMedian,
+      idleFrameMedianMs: big.locked.idleMedian,
+      frameRateAt60Hz: big.locked.frameRate,
+      // The frame rate unlocked: the target's figure.
+      unlockedScrubMedianMs: unlocked.median,
+      unlockedScrubP95Ms: unlocked.p95,
+      unlockedReadoutUpdatedMedianMs: unlocked.handledMedian,
+      unlockedIdleFrameMedianMs: unlocked.idleMedian,
+      unlockedFrameRate: unlocked.frameRate,
       smallFirstFrameMs: small.firstFrame,
       smallSeriesReadyMs: small.seriesReady,
-      smallScrubMedianMs: small.scrubMedian,
-      smallScrubP95Ms: small.scrubP95,
-      smallReadoutUpdatedMedianMs: small.handledMedian,
+      smallScrubMedianMs: small.locked.median,
+      smallScrubP95Ms: small.locked.p95,
+      smallReadoutUpdatedMedianMs: small.locked.handledMedian,
       firstFrameRatio: big.firstFrame / small.firstFrame,
-      scrubMedianRatio: big.scrubMedian / small.scrubMedian,
+      scrubMedianRatio: big.locked.median / small.locked.median,
     };
     const rows: BenchRow[] = [
       { what: 'step file, 1,000,000 steps', value: mb, unit: 'MB' },
       { what: 'first full frame, 1,000,000-step episode', value: big.firstFrame, unit: 'ms', target: '≤ 1500 ms', ok: big.firstFrame <= 1500 },
       { what: '  series ready (TD against the target)', value: big.seriesReady, unit: 'ms' },
       { what: '  suspects ready (whole file judged)', value: big.suspectsReady, unit: 'ms' },
-      { what: 'scrub step, median (keydown → painted frame)', value: big.scrubMedian, unit: 'ms', target: '≤ 16 ms', ok: big.scrubMedian <= 16 },
-      { what: 'scrub step, 95th percentile', value: big.scrubP95, unit: 'ms' },
-      { what: '  keydown → Readout updated, median', value: big.handledMedian, unit: 'ms' },
-      { what: '  ignored key → painted frame, median (the floor)', value: big.idleMedian, unit: 'ms' },
+      { what: 'scrub step, median (keydown → painted frame; frame rate unlocked)', value: unlocked.median, unit: 'ms', target: '≤ 16 ms', ok: unlocked.median <= 16 },
+      { what: '  95th percentile', value: unlocked.p95, unit: 'ms' },
+      { what: '  keydown → Readout updated, median', value: unlocked.handledMedian, unit: 'ms' },
+      { what: '  ignored key → painted frame, median (the floor)', value: unlocked.idleMedian, unit: 'ms' },
+      { what: '  frames a second, a requestAnimationFrame loop', value: unlocked.frameRate, unit: '/s' },
+      { what: 'scrub step at 60 Hz, median (keydown → painted frame)', value: big.locked.median, unit: 'ms' },
+      { what: '  95th percentile', value: big.locked.p95, unit: 'ms' },
+      { what: '  keydown → Readout updated, median', value: big.locked.handledMedian, unit: 'ms' },
+      { what: '  ignored key → painted frame, median (the floor)', value: big.locked.idleMedian, unit: 'ms' },
+      { what: '  frames a second, a requestAnimationFrame loop', value: big.locked.frameRate, unit: '/s' },
       { what: 'first full frame, 500-step episode', value: small.firstFrame, unit: 'ms' },
-      { what: 'scrub step, median, 500-step episode', value: small.scrubMedian, unit: 'ms' },
-      { what: 'scrub step, 95th percentile, 500-step episode', value: small.scrubP95, unit: 'ms' },
+      { what: 'scrub step at 60 Hz, median, 500-step episode', value: small.locked.median, unit: 'ms' },
+      { what: '  95th percentile', value: small.locked.p95, unit: 'ms' },
       { what: 'first frame, 1,000,000 against 500 steps', value: figures.firstFrameRatio, unit: '×' },
-      { what: 'scrub median, 1,000,000 against 500 steps', value: figures.scrubMedianRatio, unit: '×' },
+      { what: 'scrub median at 60 Hz, 1,000,000 against 500 steps', value: figures.scrubMedianRatio, unit: '×' },
     ];
     return { rows, figures };
   } finally {

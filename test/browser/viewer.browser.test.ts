@@ -6,6 +6,7 @@
  * Every expected number is read from the committed samples here, independently of the page. Any
  * console error, page error or request that leaves 127.0.0.1 fails the test it happened in.
  */
+import { readFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import type { Page } from 'playwright-core';
@@ -15,6 +16,7 @@ import type { EpisodeSteps, StepFile } from '../../formats/reader.ts';
 import { FLAG_EXPLORED } from '../../formats/types.ts';
 import { episodeSeries } from '../../src/analysis/series.ts';
 import { forwardDense } from '../../src/net/forward.ts';
+import { LANE_GUTTER } from '../../viewer/lanes/draw.ts';
 import { palette } from '../../viewer/theme.ts';
 import { decodePng, drawnShare, startViewer, type Viewer } from './harness.ts';
 
@@ -201,6 +203,74 @@ describe('the viewer in a browser', () => {
         .poll(async () => drawnShare(decodePng(await where.screenshot()), [palette.panel, palette.paper]), { message: `${id} is drawn`, timeout: 10_000 })
         .toBeGreaterThanOrEqual(0.02);
     }
+  });
+
+  it('exports a PNG of the view with the Stage drawn at its top', async () => {
+    const p = await openAt(`#file=trolley.steps&episode=${evalEpisode}&step=40`);
+    await untilSeriesArrives(p);
+    await p.getByTestId('clip-toggle').click();
+    const [download] = await Promise.all([p.waitForEvent('download'), p.getByTestId('export-png').click()]);
+    const image = decodePng(new Uint8Array(readFileSync(await download.path())));
+    const [stageHeight, lanesHeight] = await p.evaluate(() => [
+      document.querySelector<HTMLCanvasElement>('[data-testid=stage] canvas')!.height,
+      [...document.querySelectorAll<HTMLCanvasElement>('[data-testid^="lane-"] canvas')].reduce((h, c) => h + c.height, 0),
+    ]);
+    // The Stage above, the lanes below.
+    expect(image.height).toBe(stageHeight + lanesHeight);
+    const stage = { width: image.width, height: stageHeight, pixels: image.pixels.subarray(0, image.width * stageHeight * 4) };
+    expect(drawnShare(stage, [palette.panel, palette.paper])).toBeGreaterThanOrEqual(0.02);
+  });
+
+  it('puts the cursor on the Lanes and on the Ruler at the current step', async () => {
+    const p = await openAt(`#file=trolley.steps&episode=${evalEpisode}&step=0`);
+    await untilSeriesArrives(p);
+    const n = evalSteps.n;
+    const centre = async (testId: string) => {
+      const box = (await p.getByTestId(testId).boundingBox())!;
+      return box.x + box.width / 2;
+    };
+    const lane = (await p.getByTestId('lane-q').boundingBox())!;
+    const plotLeft = lane.x + LANE_GUTTER;
+    const plotWidth = lane.width - LANE_GUTTER;
+    const ruler = (await p.getByTestId('ruler-cursor').locator('..').boundingBox())!;
+    // The Lanes give each step a slot of the plot's width / n and put the line at the slot's
+    // centre; the Ruler spans its whole width from the first step to the last. Half a device
+    // pixel of snapping, and a pixel of rounding, either way.
+    for (const [key, row] of [['Home', 0], ['End', n - 1], ['Home', 0]] as const) {
+      await p.keyboard.press(key);
+      await expectStep(p, evalSteps.step[row]);
+      const lanesAt = plotLeft + ((row + 0.5) / n) * plotWidth;
+      const rulerAt = ruler.x + 0.5 + (row / (n - 1)) * (ruler.width - 1);
+      await expect.poll(async () => Math.abs((await centre('lanes-cursor')) - lanesAt), { message: `Lanes cursor at row ${row}` }).toBeLessThanOrEqual(1);
+      await expect.poll(async () => Math.abs((await centre('ruler-cursor')) - rulerAt), { message: `Ruler cursor at row ${row}` }).toBeLessThanOrEqual(1);
+    }
+  });
+
+  it('asks the browser for no animation frames while nothing changes', async () => {
+    const p = await openAt(`#file=trolley.steps&episode=${evalEpisode}&step=0`);
+    await untilSeriesArrives(p);
+    await p.locator('[data-testid=suspects] button[data-rule]').first().waitFor();
+    await p.keyboard.press('ArrowRight');
+    await expectStep(p, evalSteps.step[1]);
+    // Let the step's own frame and the lanes' redraw go by, then watch for half a second.
+    await p.waitForTimeout(300);
+    const requested = await p.evaluate(
+      () =>
+        new Promise<number>((resolve) => {
+          let count = 0;
+          const original = window.requestAnimationFrame;
+          window.requestAnimationFrame = (callback) => {
+            count++;
+            return original.call(window, callback);
+          };
+          setTimeout(() => {
+            window.requestAnimationFrame = original;
+            resolve(count);
+          }, 500);
+        }),
+    );
+    // A page that keeps asking for frames makes every key press wait for the display's next one.
+    expect(requested).toBe(0);
   });
 
   it('keeps the episode and step in the URL hash, so a reload returns to them', async () => {
