@@ -46,8 +46,8 @@ export class BitWriter {
   }
 
   /**
-   * Rice codes of r[from…to) with one k. The common codes (≤ 24 bits) are packed with the window
-   * in locals: a u32 kept in an object field would be a boxed number on every store.
+   * Rice codes of r[from…to) with one k. A code of ≤ 24 bits is packed with the bits in locals;
+   * longer ones (wide residuals, k > 23) go as their prefix and their low bits.
    */
   riceLane(r: Uint32Array, from: number, to: number, k: number): void {
     const lowMask = k >= 32 ? -1 : (1 << k) - 1;
@@ -60,7 +60,10 @@ export class BitWriter {
       if (n > 24) {
         this.acc = acc;
         this.accBits = accBits;
-        this.rice(z, k);
+        if (q < RICE_ESCAPE && q < 24) {
+          this.bits(((1 << q) - 1) << 1, q + 1);
+          this.wide(k >= 32 ? z : z & lowMask, k);
+        } else this.rice(z, k);
         acc = this.acc;
         accBits = this.accBits;
         continue;
@@ -231,12 +234,6 @@ export class BitReader {
     }
     return k === 0 ? q : q * 2 ** k + this.wide(k);
   }
-}
-
-/** Bits a Rice code of r with parameter k takes: the measure the encoder chooses k by. */
-export function riceLength(r: number, k: number): number {
-  const q = k >= 32 ? 0 : Math.floor(r / 2 ** k); // r may be a fraction (an estimate) or ≥ 2^31
-  return q < RICE_ESCAPE ? q + 1 + k : RICE_ESCAPE + 32;
 }
 
 export class ByteWriter {

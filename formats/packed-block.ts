@@ -6,7 +6,7 @@
  * The encoder chooses, per block and lane, the predictor that makes the residuals smallest on the
  * block's first rows; the choice is written down, so a reader never guesses.
  */
-import { BitReader, BitWriter, ByteReader, ByteWriter, RICE_ESCAPE, riceLength } from './bitstream.ts';
+import { BitReader, BitWriter, ByteReader, ByteWriter, RICE_ESCAPE } from './bitstream.ts';
 import { Predict, bitCost, zigzagOfPattern, coefficientCandidates, hasCoefficient, hasRef, reconstruct, residuals, PREDICT_KINDS, type Predictor } from './lanes.ts';
 import type { WeightsRun } from './types.ts';
 
@@ -125,15 +125,36 @@ function choose(lane: Lane, candidates: Predictor[], lanes: Map<number, Lane>, r
   return best;
 }
 
-function integrators(x: Lane, refs: Lane[], rows: number): Predictor[] {
-  const out: Predictor[] = [];
+/**
+ * The best of `current` and the integrating predictors of x from each lane in refs. The fitted
+ * coefficient is tried first; its rounded forms, which can hit a time step exactly, only when
+ * the fit itself beats what x has, so lanes that integrate nothing cost one trial per reference.
+ */
+function bestIntegrator(x: Lane, current: Predictor, refs: Lane[], lanes: Map<number, Lane>, rows: number, scratch: Uint32Array): Predictor {
+  let best = current;
+  residuals(current, x.bits, hasRef(current.kind) ? lanes.get(current.ref)!.bits : null, rows, scratch);
+  let bestCost = bitCost(scratch, rows);
+  const trial = (p: Predictor, y: Lane) => {
+    residuals(p, x.bits, y.bits, rows, scratch);
+    const cost = bitCost(scratch, rows);
+    if (cost < bestCost) {
+      bestCost = cost;
+      best = p;
+    }
+    return cost;
+  };
   for (const y of refs) {
     for (const lag of [1, 0] as const) {
       const kind = lag === 1 ? Predict.IntegratePrevious : Predict.IntegrateCurrent;
-      for (const c of coefficientCandidates(x.bits, y.bits, rows, lag)) out.push({ kind, ref: y.id, c });
+      const cs = coefficientCandidates(x.bits, y.bits, rows, lag);
+      if (cs.length === 0) continue;
+      // The last candidate is the fit itself.
+      const before = bestCost;
+      if (trial({ kind, ref: y.id, c: cs[cs.length - 1] }, y) >= before) continue;
+      for (let i = 0; i < cs.length - 1; i++) trial({ kind, ref: y.id, c: cs[i] }, y);
     }
   }
-  return out;
+  return best;
 }
 
 /**
@@ -144,33 +165,39 @@ function integrators(x: Lane, refs: Lane[], rows: number): Predictor[] {
 function riceParameter(r: Uint32Array, from: number): number {
   const lengths = new Float64Array(33);
   for (let t = from; t < r.length; t++) lengths[32 - Math.clz32(r[t])]++;
+  const seen: number[] = [];
+  for (let b = 0; b <= 32; b++) if (lengths[b]) seen.push(b);
   let guess = 0;
   let guessBits = Infinity;
   for (let k = 0; k <= 32; k++) {
     let bits = 0;
-    // A value of b bits lies in [2^(b−1), 2^b): take q at three quarters of 2^(b−k).
-    for (let b = 0; b <= 32; b++) if (lengths[b]) bits += lengths[b] * riceLength(b === 0 ? 0 : 0.75 * 2 ** b, k);
+    // A value of b bits lies in [2^(b−1), 2^b): take q at three quarters of 2^(b−k), which is
+    // past the escape from b − k = 6 on.
+    for (const b of seen) {
+      const d = b - k;
+      const q = d <= 0 ? 0 : d >= 6 ? ESCAPE : (3 << d) >> 2;
+      bits += lengths[b] * (q < ESCAPE ? q + 1 + k : ESCAPE + 32);
+    }
     if (bits < guessBits) {
       guessBits = bits;
       guess = k;
     }
   }
-  let best = guess;
-  let bestBits = Infinity;
-  for (let k = Math.max(0, guess - 1); k <= Math.min(32, guess + 1); k++) {
-    let bits = 0;
-    if (k < 32) {
-      for (let t = from; t < r.length; t++) {
-        const q = r[t] >>> k;
-        bits += q < ESCAPE ? q + 1 + k : ESCAPE + 32;
-      }
-    } else bits = 33 * (r.length - from);
-    if (bits < bestBits) {
-      bestBits = bits;
-      best = k;
-    }
+  // The guess and its neighbours, counted exactly in one pass.
+  const k0 = Math.max(0, Math.min(30, guess - 1));
+  let b0 = 0;
+  let b1 = 0;
+  let b2 = 0;
+  for (let t = from; t < r.length; t++) {
+    const z = r[t];
+    const q0 = z >>> k0;
+    b0 += q0 < ESCAPE ? q0 + 1 + k0 : ESCAPE + 32;
+    const q1 = q0 >>> 1;
+    b1 += q1 < ESCAPE ? q1 + 2 + k0 : ESCAPE + 32;
+    const q2 = q0 >>> 2;
+    b2 += q2 < ESCAPE ? q2 + 3 + k0 : ESCAPE + 32;
   }
-  return best;
+  return b0 <= b1 && b0 <= b2 ? k0 : b1 <= b2 ? k0 + 1 : k0 + 2;
 }
 
 /**
@@ -217,7 +244,12 @@ export function encodePacked(b: PackedColumns): Uint8Array {
   };
   if (D <= MAX_SEARCH_DIMS && rows >= 3) {
     const state = lanes.slice(0, D);
-    for (const x of state) pickAmong(x, integrators(x, state.filter((y) => y !== x && standsAlone(y.id)), rows));
+    for (const x of state) {
+      if (readByOthers.has(x.id)) continue;
+      const p = bestIntegrator(x, chosen.get(x.id)!, state.filter((y) => y !== x && standsAlone(y.id)), byId, rows, scratch);
+      chosen.set(x.id, p);
+      if (hasRef(p.kind)) readByOthers.add(p.ref);
+    }
   }
   if (A <= MAX_SEARCH_DIMS) {
     const q = lanes.slice(D, D + A);
