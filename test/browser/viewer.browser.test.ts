@@ -246,6 +246,19 @@ describe('the viewer in a browser', () => {
     }
   });
 
+  it('spreads the Ruler over its whole panel, and again when the window is resized', async () => {
+    const p = await openAt(`#file=trolley.steps&episode=${evalEpisode}&step=0`);
+    // The Ruler's box has 10 px of padding on either side; its scrub surface fills the rest.
+    const fills = async () => {
+      const panel = (await p.getByTestId('ruler').boundingBox())!;
+      const surface = (await p.getByTestId('ruler-cursor').locator('..').boundingBox())!;
+      return Math.abs(surface.width - (panel.width - 20));
+    };
+    await expect.poll(fills).toBeLessThanOrEqual(1);
+    await p.setViewportSize({ width: 1800, height: 900 });
+    await expect.poll(fills).toBeLessThanOrEqual(1);
+  });
+
   it('asks the browser for no animation frames while nothing changes', async () => {
     const p = await openAt(`#file=trolley.steps&episode=${evalEpisode}&step=0`);
     await untilSeriesArrives(p);
