@@ -143,14 +143,16 @@ class StepRecorder implements Recorder {
     const D = this.D;
     const A = this.A;
     for (let i = 0; i < D; i++) b.state[row * D + i] = state[i];
+    // Counted as stored: a value past float32's range (1e39, say) is kept as ±Infinity, and is
+    // counted as one. NaN and ±Infinity both fail x − x = 0.
     for (let i = 0; i < A; i++) {
-      const v = q[i];
-      b.q[row * A + i] = v;
-      if (v - v !== 0) this.stats.nonFiniteQ++; // NaN and ±Infinity both fail x − x = 0
+      const at = row * A + i;
+      b.q[at] = q[i];
+      if (b.q[at] - b.q[at] !== 0) this.stats.nonFiniteQ++;
     }
     b.action[row] = action;
     b.reward[row] = reward;
-    if (reward - reward !== 0) this.stats.nonFiniteReward++;
+    if (b.reward[row] - b.reward[row] !== 0) this.stats.nonFiniteReward++;
     b.flags[row] = (input.terminal ? FLAG_TERMINAL : 0) | (input.truncated ? FLAG_TRUNCATED : 0) | (input.explored ? FLAG_EXPLORED : 0);
     if (input.epsilon !== undefined) {
       if (!b.epsilon) b.epsilon = new Float32Array(this.blockSize).fill(NaN);

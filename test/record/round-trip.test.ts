@@ -449,3 +449,20 @@ describe('weights runs at the edges of a block', () => {
     for (const [row] of steps.weights) expect(row).toBeLessThan(steps.n);
   });
 });
+
+describe('values beyond the float32 range', () => {
+  it.each([false, true])('are stored as ±Infinity and counted as non-finite, like any infinity (compress %s)', (compress) => {
+    // float32's largest finite value is (2 − 2⁻²³)·2¹²⁷ ≈ 3.4028235e38 (IEEE 754-2008, binary32);
+    // 1e39 and 3.5e38 round past it to infinity, 3.4e38 stays finite.
+    const sink = new MemorySink();
+    const rec = createRecorder(sink, { stateDims: [{ name: 'x', unit: 'm' }], actions: ['a', 'b'], gamma: 0.5, system: { kind: 'rover', map: {} } }, { compress });
+    rec.step({ state: [0], action: 0, reward: 3.5e38, q: [1e39, -1e39] });
+    rec.step({ state: [1], action: 1, reward: 3.4e38, q: [3.4e38, 0] });
+    rec.endEpisode();
+    rec.close();
+    expect([rec.stats.nonFiniteQ, rec.stats.nonFiniteReward]).toEqual([2, 1]);
+    const steps = open(sink.bytes()).readEpisode(0);
+    expect(Array.from(steps.q)).toEqual([Infinity, -Infinity, Math.fround(3.4e38), 0]);
+    expect(Array.from(steps.reward)).toEqual([Infinity, Math.fround(3.4e38)]);
+  });
+});
