@@ -236,24 +236,20 @@ export function encodePacked(b: PackedColumns): Uint8Array {
   // A lane that another reads must stay on its own, and a lane that reads is read by none.
   const standsAlone = (id: number) => !hasRef(chosen.get(id)!.kind);
   const readByOthers = new Set<number>();
-  const pickAmong = (x: Lane, extra: Predictor[]) => {
+  const settle = (x: Lane, better: (current: Predictor) => Predictor) => {
     if (readByOthers.has(x.id)) return;
-    const p = choose(x, [chosen.get(x.id)!, ...extra], byId, rows, scratch);
+    const p = better(chosen.get(x.id)!);
     chosen.set(x.id, p);
     if (hasRef(p.kind)) readByOthers.add(p.ref);
   };
   if (D <= MAX_SEARCH_DIMS && rows >= 3) {
     const state = lanes.slice(0, D);
-    for (const x of state) {
-      if (readByOthers.has(x.id)) continue;
-      const p = bestIntegrator(x, chosen.get(x.id)!, state.filter((y) => y !== x && standsAlone(y.id)), byId, rows, scratch);
-      chosen.set(x.id, p);
-      if (hasRef(p.kind)) readByOthers.add(p.ref);
-    }
+    for (const x of state) settle(x, (current) => bestIntegrator(x, current, state.filter((y) => y !== x && standsAlone(y.id)), byId, rows, scratch));
   }
   if (A <= MAX_SEARCH_DIMS) {
     const q = lanes.slice(D, D + A);
-    for (const x of q) pickAmong(x, q.filter((y) => y !== x && standsAlone(y.id)).map((y): Predictor => ({ kind: Predict.Beside, ref: y.id, c: 0 })));
+    const beside = (x: Lane) => q.filter((y) => y !== x && standsAlone(y.id)).map((y): Predictor => ({ kind: Predict.Beside, ref: y.id, c: 0 }));
+    for (const x of q) settle(x, (current) => choose(x, [current, ...beside(x)], byId, rows, scratch));
   }
 
   // Lanes that read another come after every lane that stands alone, so a reader has y before x.
