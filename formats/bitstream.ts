@@ -214,25 +214,11 @@ export class BitReader {
     this.avail = avail;
   }
 
+  /** One Rice code: the lane reader on a single value, so the unary part and its escape live in one place. */
   rice(k: number): number {
-    let q = 0;
-    for (;;) {
-      this.refill();
-      if (this.avail === 0) throw new Error('bit stream ends early');
-      // Leading ones of the window, at most the bits it holds and what the escape allows.
-      const ones = Math.min(Math.clz32(~this.win), this.avail, RICE_ESCAPE - q);
-      q += ones;
-      this.win = ones === 32 ? 0 : (this.win << ones) >>> 0;
-      this.avail -= ones;
-      if (q === RICE_ESCAPE) return this.wide(32);
-      if (this.avail > 0) {
-        // The ones stopped at a zero inside the window: the end of the unary part.
-        this.win = (this.win << 1) >>> 0;
-        this.avail -= 1;
-        break;
-      }
-    }
-    return k === 0 ? q : q * 2 ** k + this.wide(k);
+    const one = new Uint32Array(1);
+    this.riceLane(one, 0, 1, k);
+    return one[0];
   }
 }
 
@@ -260,12 +246,6 @@ export class ByteWriter {
     this.room(4);
     new DataView(this.bytes.buffer).setFloat32(this.pos, v, true);
     this.pos += 4;
-  }
-
-  f64(v: number): void {
-    this.room(8);
-    new DataView(this.bytes.buffer).setFloat64(this.pos, v, true);
-    this.pos += 8;
   }
 
   raw(b: Uint8Array): void {
@@ -318,13 +298,6 @@ export class ByteReader {
     this.need(4, what);
     const v = new DataView(this.bytes.buffer, this.bytes.byteOffset).getFloat32(this.pos, true);
     this.pos += 4;
-    return v;
-  }
-
-  f64(what: string): number {
-    this.need(8, what);
-    const v = new DataView(this.bytes.buffer, this.bytes.byteOffset).getFloat64(this.pos, true);
-    this.pos += 8;
     return v;
   }
 

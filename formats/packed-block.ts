@@ -204,7 +204,7 @@ function riceParameter(r: Uint32Array, from: number): number {
  * Whether a lane's first value is written as its 32 bits: a float lane whose predictor starts
  * from 0 would otherwise pay the escape (64 bits) for it.
  */
-export function firstValueRaw(float: boolean, kind: Predict): boolean {
+function firstValueRaw(float: boolean, kind: Predict): boolean {
   return float && kind !== Predict.Beside;
 }
 
