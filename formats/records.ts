@@ -153,19 +153,8 @@ export function actionArrayFor(actionCount: number, n: number): Uint8Array | Uin
   return new Uint32Array(n);
 }
 
-export interface BlockToEncode {
-  n: number;
-  episode: number;
-  firstStep: number;
-  state: Float32Array;
-  action: Uint8Array | Uint16Array | Uint32Array;
-  reward: Float32Array;
-  flags: Uint8Array;
-  q: Float32Array;
-  epsilon: Float32Array | null;
-  extras: Record<string, Float32Array>;
-  weights: WeightsRun[];
-}
+/** A block as the recorder holds it: the decoded columns, with the action in the smallest dtype that fits. */
+export type BlockToEncode = Omit<StepColumns, 'action'> & { action: Uint8Array | Uint16Array | Uint32Array };
 
 /**
  * `packed`: the whole block as one MessagePack binary of predicted lanes (SPEC.md §5.2), for

@@ -3,18 +3,10 @@
  * ±Infinity as values to match, not as failures.
  */
 import type { Activation, DenseLayer } from '../../formats/types.ts';
+import { seededRandom } from '../formats/seeded-bytes.ts';
 
-/** mulberry32: a small 32-bit generator, so every test run sees the same weights and states. */
-export function seeded(seed: number): () => number {
-  let a = seed >>> 0;
-  return () => {
-    a = (a + 0x6d2b79f5) >>> 0;
-    let t = a;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
-}
+/** mulberry32, so every test run sees the same weights and states: the one generator of the tests. */
+export const seeded = seededRandom;
 
 /**
  * Layers of the given sizes, hidden layers with `hidden`, the output linear as in a Q-network.

@@ -3,18 +3,10 @@ import {
   BREAK_AFTER, BREAK_BEFORE, BREAK_GAP_0, BREAK_GAP_1, BREAK_GAP_2, HAS_NAN, HAS_NEG_INF, HAS_POS_INF,
   columnOf, columnStart, createM4, lttb, m4, type M4Result,
 } from '../../viewer/lanes/decimate.ts';
+import { seededRandom } from '../formats/seeded-bytes.ts';
 
 /** Small seeded generator (mulberry32), so a failure can be replayed. */
-function generator(seed: number) {
-  let a = seed >>> 0;
-  return () => {
-    a = (a + 0x6d2b79f5) >>> 0;
-    let t = a;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
-}
+const generator = seededRandom;
 
 /** The reference: every step folded into its column by the pinned convention, one at a time. */
 function bruteForce(values: ArrayLike<number>, stride: number, offset: number, from: number, to: number, columns: number) {

@@ -5,6 +5,7 @@
  */
 import type { DenseLayer } from '../../formats/types.ts';
 import type { EpisodeVerdict } from '../../src/analysis/analyse.ts';
+import type { EpisodeSeries } from '../../src/analysis/series.ts';
 import type { Suspect } from '../../src/analysis/suspects.ts';
 import type { SyncCadence } from '../../src/analysis/target-age.ts';
 import type { TdOptions, TdSeries } from '../../src/analysis/td.ts';
@@ -28,17 +29,8 @@ export type ToWorker =
   | { type: 'series'; key: string; request: number; episode: number; target: TargetSpec; td: TdOptions };
 
 /** The per-step series of one episode, as the lanes and the Readout need them. */
-export interface SeriesPayload {
-  episode: number;
-  n: number;
-  greedy: Int32Array;
-  flips: Uint8Array;
-  gap: Float32Array;
-  maxQ: Float32Array;
-  returns: Float64Array;
-  returnIsLowerHorizon: boolean;
-  valueError: Float64Array;
-  firstNonFinite: number;
+export interface SeriesPayload
+  extends Pick<EpisodeSeries, 'episode' | 'n' | 'greedy' | 'flips' | 'gap' | 'maxQ' | 'returns' | 'returnIsLowerHorizon' | 'valueError' | 'firstNonFinite'> {
   /** The target network the TD series used (for in-force: the one of this episode), or null. */
   targetSource: string | null;
   /** Per-step target age (training steps since the target weights last changed). */
