@@ -49,7 +49,7 @@ export class BitWriter {
    * Rice codes of r[from…to) with one k. A code of ≤ 24 bits is packed with the bits in locals;
    * longer ones (wide residuals, k > 23) go as their prefix and their low bits.
    */
-  riceLane(r: Uint32Array, from: number, to: number, k: number): void {
+  riceChannel(r: Uint32Array, from: number, to: number, k: number): void {
     const lowMask = k >= 32 ? -1 : (1 << k) - 1;
     let acc = this.acc;
     let accBits = this.accBits;
@@ -152,8 +152,8 @@ export class BitReader {
     return this.bits(n);
   }
 
-  /** Reads n Rice codes with parameter k into out[from…from+n), the window in locals (see BitWriter.riceLane). */
-  riceLane(out: Uint32Array, from: number, n: number, k: number): void {
+  /** Reads n Rice codes with parameter k into out[from…from+n), the window in locals (see BitWriter.riceChannel). */
+  riceChannel(out: Uint32Array, from: number, n: number, k: number): void {
     const bytes = this.bytes;
     const end = bytes.length;
     let pos = this.pos;
@@ -214,10 +214,10 @@ export class BitReader {
     this.avail = avail;
   }
 
-  /** One Rice code: the lane reader on a single value, so the unary part and its escape live in one place. */
+  /** One Rice code: the channel reader on a single value, so the unary part and its escape live in one place. */
   rice(k: number): number {
     const one = new Uint32Array(1);
-    this.riceLane(one, 0, 1, k);
+    this.riceChannel(one, 0, 1, k);
     return one[0];
   }
 }

@@ -1,13 +1,13 @@
 /**
  * The packed form of a step block's contents (SPEC.md §5.2): the weights runs and every column as
- * predicted lanes with Rice-coded residuals, in one binary. A block of a short episode costs little
+ * predicted channels with Rice-coded residuals, in one binary. A block of a short episode costs little
  * more than its values: no per-column maps, no per-column deflate tables.
  *
- * The encoder chooses, per block and lane, the predictor that makes the residuals smallest on the
+ * The encoder chooses, per block and channel, the predictor that makes the residuals smallest on the
  * block's first rows; the choice is written down, so a reader never guesses.
  */
 import { BitReader, BitWriter, ByteReader, ByteWriter, RICE_ESCAPE } from './bitstream.ts';
-import { Predict, bitCost, zigzagOfPattern, coefficientCandidates, hasCoefficient, hasRef, reconstruct, residuals, PREDICT_KINDS, type Predictor } from './lanes.ts';
+import { Predict, bitCost, zigzagOfPattern, coefficientCandidates, hasCoefficient, hasRef, reconstruct, residuals, PREDICT_KINDS, type Predictor } from './channels.ts';
 import type { WeightsRun } from './types.ts';
 
 export const PACKED_LAYOUT = 1;
@@ -17,7 +17,7 @@ const ESCAPE = RICE_ESCAPE;
 
 /** Rows the predictor search looks at: enough to tell predictors apart, few enough to stay cheap. */
 const SEARCH_ROWS = 256;
-/** Integrating predictors are searched between state lanes only for systems this small (D²·14 trials). */
+/** Integrating predictors are searched between state channels only for systems this small (D²·14 trials). */
 const MAX_SEARCH_DIMS = 16;
 
 export interface PackedColumns {
@@ -38,8 +38,8 @@ export interface PackedColumns {
   weights: WeightsRun[];
 }
 
-/** Lane ids: state 0…D−1, Q D…D+A−1, then reward, action, flags, ε, the extras in header order. */
-function laneIds(D: number, A: number) {
+/** Channel ids: state 0…D−1, Q D…D+A−1, then reward, action, flags, ε, the extras in header order. */
+function channelIds(D: number, A: number) {
   const reward = D + A;
   return { reward, action: reward + 1, flags: reward + 2, epsilon: reward + 3, extra: (i: number) => reward + 4 + i };
 }
@@ -84,10 +84,10 @@ function readIdBody(r: ByteReader, tag: number, online: string | null, what: str
 
 // ---------------------------------------------------------------- encode
 
-interface Lane {
+interface Channel {
   id: number;
   bits: Uint32Array;
-  /** Float lanes may be predicted by computing; integer lanes only by the previous value. */
+  /** Float channels may be predicted by computing; integer channels only by the previous value. */
   float: boolean;
 }
 
@@ -97,25 +97,25 @@ function column(src: ArrayLike<number>, n: number, stride: number, offset: numbe
   return out;
 }
 
-function floatLane(src: Float32Array, n: number, stride: number, offset: number): Uint32Array {
+function floatChannel(src: Float32Array, n: number, stride: number, offset: number): Uint32Array {
   const bits = new Uint32Array(src.buffer, src.byteOffset, src.length);
   return column(bits, n, stride, offset);
 }
 
 interface Choice {
-  lane: Lane;
+  channel: Channel;
   p: Predictor;
   r: Uint32Array;
   /** The Rice parameter. */
   k: number;
 }
 
-/** The cheapest of the candidate predictors of `lane`, judged on its first rows. */
-function choose(lane: Lane, candidates: Predictor[], lanes: Map<number, Lane>, rows: number, scratch: Uint32Array): Predictor {
+/** The cheapest of the candidate predictors of `channel`, judged on its first rows. */
+function choose(channel: Channel, candidates: Predictor[], channels: Map<number, Channel>, rows: number, scratch: Uint32Array): Predictor {
   let best = candidates[0];
   let bestCost = Infinity;
   for (const p of candidates) {
-    residuals(p, lane.bits, hasRef(p.kind) ? lanes.get(p.ref)!.bits : null, rows, scratch);
+    residuals(p, channel.bits, hasRef(p.kind) ? channels.get(p.ref)!.bits : null, rows, scratch);
     const cost = bitCost(scratch, rows);
     if (cost < bestCost) {
       bestCost = cost;
@@ -126,15 +126,15 @@ function choose(lane: Lane, candidates: Predictor[], lanes: Map<number, Lane>, r
 }
 
 /**
- * The best of `current` and the integrating predictors of x from each lane in refs. The fitted
+ * The best of `current` and the integrating predictors of x from each channel in refs. The fitted
  * coefficient is tried first; its rounded forms, which can hit a time step exactly, only when
- * the fit itself beats what x has, so lanes that integrate nothing cost one trial per reference.
+ * the fit itself beats what x has, so channels that integrate nothing cost one trial per reference.
  */
-function bestIntegrator(x: Lane, current: Predictor, refs: Lane[], lanes: Map<number, Lane>, rows: number, scratch: Uint32Array): Predictor {
+function bestIntegrator(x: Channel, current: Predictor, refs: Channel[], channels: Map<number, Channel>, rows: number, scratch: Uint32Array): Predictor {
   let best = current;
-  residuals(current, x.bits, hasRef(current.kind) ? lanes.get(current.ref)!.bits : null, rows, scratch);
+  residuals(current, x.bits, hasRef(current.kind) ? channels.get(current.ref)!.bits : null, rows, scratch);
   let bestCost = bitCost(scratch, rows);
-  const trial = (p: Predictor, y: Lane) => {
+  const trial = (p: Predictor, y: Channel) => {
     residuals(p, x.bits, y.bits, rows, scratch);
     const cost = bitCost(scratch, rows);
     if (cost < bestCost) {
@@ -201,7 +201,7 @@ function riceParameter(r: Uint32Array, from: number): number {
 }
 
 /**
- * Whether a lane's first value is written as its 32 bits: a float lane whose predictor starts
+ * Whether a channel's first value is written as its 32 bits: a float channel whose predictor starts
  * from 0 would otherwise pay the escape (64 bits) for it.
  */
 function firstValueRaw(float: boolean, kind: Predict): boolean {
@@ -210,57 +210,57 @@ function firstValueRaw(float: boolean, kind: Predict): boolean {
 
 export function encodePacked(b: PackedColumns): Uint8Array {
   const { n, stateSize: D, actionCount: A } = b;
-  const ids = laneIds(D, A);
-  const lanes: Lane[] = [];
-  for (let d = 0; d < D; d++) lanes.push({ id: d, bits: floatLane(b.state, n, D, d), float: true });
-  for (let a = 0; a < A; a++) lanes.push({ id: D + a, bits: floatLane(b.q, n, A, a), float: true });
-  lanes.push({ id: ids.reward, bits: floatLane(b.reward, n, 1, 0), float: true });
-  lanes.push({ id: ids.action, bits: column(b.action, n, 1, 0), float: false });
-  lanes.push({ id: ids.flags, bits: column(b.flags, n, 1, 0), float: false });
-  if (b.epsilon) lanes.push({ id: ids.epsilon, bits: floatLane(b.epsilon, n, 1, 0), float: true });
+  const ids = channelIds(D, A);
+  const channels: Channel[] = [];
+  for (let d = 0; d < D; d++) channels.push({ id: d, bits: floatChannel(b.state, n, D, d), float: true });
+  for (let a = 0; a < A; a++) channels.push({ id: D + a, bits: floatChannel(b.q, n, A, a), float: true });
+  channels.push({ id: ids.reward, bits: floatChannel(b.reward, n, 1, 0), float: true });
+  channels.push({ id: ids.action, bits: column(b.action, n, 1, 0), float: false });
+  channels.push({ id: ids.flags, bits: column(b.flags, n, 1, 0), float: false });
+  if (b.epsilon) channels.push({ id: ids.epsilon, bits: floatChannel(b.epsilon, n, 1, 0), float: true });
   b.extras.forEach((x, i) => {
-    if (x) lanes.push({ id: ids.extra(i), bits: floatLane(x, n, 1, 0), float: true });
+    if (x) channels.push({ id: ids.extra(i), bits: floatChannel(x, n, 1, 0), float: true });
   });
-  const byId = new Map(lanes.map((l) => [l.id, l]));
+  const byId = new Map(channels.map((l) => [l.id, l]));
 
-  // Predictors: first each lane on its own; then state lanes may integrate another state lane and
-  // Q lanes may follow a neighbour, provided the lane they read is itself predicted on its own.
+  // Predictors: first each channel on its own; then state channels may integrate another state channel and
+  // Q channels may follow a neighbour, provided the channel they read is itself predicted on its own.
   const rows = Math.min(n, SEARCH_ROWS);
   const scratch = new Uint32Array(rows);
   const chosen = new Map<number, Predictor>();
-  for (const lane of lanes) {
+  for (const channel of channels) {
     const own: Predictor[] = [{ kind: Predict.Previous, ref: 0, c: 0 }];
-    if (lane.float) own.push({ kind: Predict.Linear, ref: 0, c: 0 });
-    chosen.set(lane.id, choose(lane, own, byId, rows, scratch));
+    if (channel.float) own.push({ kind: Predict.Linear, ref: 0, c: 0 });
+    chosen.set(channel.id, choose(channel, own, byId, rows, scratch));
   }
-  // A lane that another reads must stay on its own, and a lane that reads is read by none.
+  // A channel that another reads must stay on its own, and a channel that reads is read by none.
   const standsAlone = (id: number) => !hasRef(chosen.get(id)!.kind);
   const readByOthers = new Set<number>();
-  const settle = (x: Lane, better: (current: Predictor) => Predictor) => {
+  const settle = (x: Channel, better: (current: Predictor) => Predictor) => {
     if (readByOthers.has(x.id)) return;
     const p = better(chosen.get(x.id)!);
     chosen.set(x.id, p);
     if (hasRef(p.kind)) readByOthers.add(p.ref);
   };
   if (D <= MAX_SEARCH_DIMS && rows >= 3) {
-    const state = lanes.slice(0, D);
+    const state = channels.slice(0, D);
     for (const x of state) settle(x, (current) => bestIntegrator(x, current, state.filter((y) => y !== x && standsAlone(y.id)), byId, rows, scratch));
   }
   if (A <= MAX_SEARCH_DIMS) {
-    const q = lanes.slice(D, D + A);
-    const beside = (x: Lane) => q.filter((y) => y !== x && standsAlone(y.id)).map((y): Predictor => ({ kind: Predict.Beside, ref: y.id, c: 0 }));
+    const q = channels.slice(D, D + A);
+    const beside = (x: Channel) => q.filter((y) => y !== x && standsAlone(y.id)).map((y): Predictor => ({ kind: Predict.Beside, ref: y.id, c: 0 }));
     for (const x of q) settle(x, (current) => choose(x, [current, ...beside(x)], byId, rows, scratch));
   }
 
-  // Lanes that read another come after every lane that stands alone, so a reader has y before x.
+  // Channels that read another come after every channel that stands alone, so a reader has y before x.
   const order: Choice[] = [];
   for (const pass of [false, true]) {
-    for (const lane of lanes) {
-      const p = chosen.get(lane.id)!;
+    for (const channel of channels) {
+      const p = chosen.get(channel.id)!;
       if (hasRef(p.kind) !== pass) continue;
       const r = new Uint32Array(n);
-      residuals(p, lane.bits, hasRef(p.kind) ? byId.get(p.ref)!.bits : null, n, r);
-      order.push({ lane, p, r, k: riceParameter(r, firstValueRaw(lane.float, p.kind) ? 1 : 0) });
+      residuals(p, channel.bits, hasRef(p.kind) ? byId.get(p.ref)!.bits : null, n, r);
+      order.push({ channel, p, r, k: riceParameter(r, firstValueRaw(channel.float, p.kind) ? 1 : 0) });
     }
   }
 
@@ -277,24 +277,24 @@ export function encodePacked(b: PackedColumns): Uint8Array {
     writeIdBody(head, online, tags & 3);
     writeIdBody(head, target, tags >> 2);
   }
-  // Which optional lanes the block has: bit 0 ε, bit 1 + i the header's extra i.
+  // Which optional channels the block has: bit 0 ε, bit 1 + i the header's extra i.
   const present = new Uint8Array(Math.ceil((1 + b.extras.length) / 8));
   const mark = (bit: number) => (present[bit >> 3] |= 1 << (bit & 7));
   if (b.epsilon) mark(0);
   b.extras.forEach((x, i) => x && mark(1 + i));
   head.raw(present);
-  const byLane = new Map(order.map((o) => [o.lane.id, o]));
-  for (const lane of lanes) {
-    const { p, k } = byLane.get(lane.id)!;
+  const byChannel = new Map(order.map((o) => [o.channel.id, o]));
+  for (const channel of channels) {
+    const { p, k } = byChannel.get(channel.id)!;
     head.u8(p.kind * 33 + k);
     if (hasRef(p.kind)) head.varint(p.ref);
     if (hasCoefficient(p.kind)) head.f32(p.c);
   }
   const bits = new BitWriter(n * order.length * 2 + 16);
-  for (const { lane, p, r, k } of order) {
+  for (const { channel, p, r, k } of order) {
     let t = 0;
-    if (firstValueRaw(lane.float, p.kind)) bits.wide(lane.bits[t++], 32);
-    bits.riceLane(r, t, n, k);
+    if (firstValueRaw(channel.float, p.kind)) bits.wide(channel.bits[t++], 32);
+    bits.riceChannel(r, t, n, k);
   }
   head.raw(bits.finish());
   return head.finish();
@@ -341,15 +341,15 @@ export function decodePacked(bytes: Uint8Array, D: number, A: number, extraNames
     weights.push([row, online, readIdBody(r, tags >> 2, online, where)]);
   }
 
-  const ids = laneIds(D, A);
+  const ids = channelIds(D, A);
   const present = r.raw(Math.ceil((1 + extraNames.length) / 8), `${what}, present`);
   const has = (bit: number) => (present[bit >> 3] & (1 << (bit & 7))) !== 0;
-  const laneList: number[] = [];
-  for (let id = 0; id < ids.epsilon; id++) laneList.push(id);
-  if (has(0)) laneList.push(ids.epsilon);
-  extraNames.forEach((_, i) => has(1 + i) && laneList.push(ids.extra(i)));
-  // Every lane is n values of 4 bytes once decoded; refuse what could not fit in a file of this size.
-  if (n * laneList.length * 4 > maxBytes) throw new Error(`${what}: ${n} rows of ${laneList.length} lanes need more memory than allowed (${maxBytes} bytes)`);
+  const channelList: number[] = [];
+  for (let id = 0; id < ids.epsilon; id++) channelList.push(id);
+  if (has(0)) channelList.push(ids.epsilon);
+  extraNames.forEach((_, i) => has(1 + i) && channelList.push(ids.extra(i)));
+  // Every channel is n values of 4 bytes once decoded; refuse what could not fit in a file of this size.
+  if (n * channelList.length * 4 > maxBytes) throw new Error(`${what}: ${n} rows of ${channelList.length} channels need more memory than allowed (${maxBytes} bytes)`);
 
   interface Entry {
     id: number;
@@ -357,14 +357,14 @@ export function decodePacked(bytes: Uint8Array, D: number, A: number, extraNames
     k: number;
     float: boolean;
   }
-  const entries: Entry[] = laneList.map((id) => {
-    const where = `${what}, lane ${id}`;
+  const entries: Entry[] = channelList.map((id) => {
+    const where = `${what}, channel ${id}`;
     const code = r.u8(where);
     const kind = Math.floor(code / 33) as Predict;
     const k = code % 33;
     if (kind >= PREDICT_KINDS) throw new Error(`${where}: predictor ${kind} is unknown`);
     const float = id !== ids.action && id !== ids.flags;
-    if (!float && kind !== Predict.Previous) throw new Error(`${where}: an integer lane is predicted only by its previous value`);
+    if (!float && kind !== Predict.Previous) throw new Error(`${where}: an integer channel is predicted only by its previous value`);
     const ref = hasRef(kind) ? r.varint(where) : 0;
     const c = hasCoefficient(kind) ? r.f32(where) : 0;
     return { id, p: { kind, ref, c }, k, float };
@@ -373,49 +373,49 @@ export function decodePacked(bytes: Uint8Array, D: number, A: number, extraNames
   for (const e of entries) {
     if (!hasRef(e.p.kind)) continue;
     const y = byId.get(e.p.ref);
-    if (!y || !y.float || hasRef(y.p.kind)) throw new Error(`${what}, lane ${e.id}: refers to lane ${e.p.ref}, which is not a float lane of this block predicted on its own`);
+    if (!y || !y.float || hasRef(y.p.kind)) throw new Error(`${what}, channel ${e.id}: refers to channel ${e.p.ref}, which is not a float channel of this block predicted on its own`);
   }
 
   const bits = new BitReader(bytes, r.pos);
-  const lanes = new Map<number, Uint32Array>();
+  const channels = new Map<number, Uint32Array>();
   const res = new Uint32Array(n);
-  const decodeLane = ({ id, p, k, float }: Entry) => {
+  const decodeChannel = ({ id, p, k, float }: Entry) => {
     const raw = firstValueRaw(float, p.kind) && n > 0;
     try {
       let t = 0;
       if (raw) res[t++] = bits.wide(32);
-      bits.riceLane(res, t, n - t, k);
+      bits.riceChannel(res, t, n - t, k);
     } catch (e) {
-      throw new Error(`${what}, lane ${id}: ${(e as Error).message}`);
+      throw new Error(`${what}, channel ${id}: ${(e as Error).message}`);
     }
     // A first value written whole is its own pattern: the residual against a prediction of 0.
     if (raw) res[0] = zigzagOfPattern(res[0]);
     const x = new Uint32Array(n);
-    reconstruct(p, res, hasRef(p.kind) ? lanes.get(p.ref)! : null, x);
-    lanes.set(id, x);
+    reconstruct(p, res, hasRef(p.kind) ? channels.get(p.ref)! : null, x);
+    channels.set(id, x);
   };
-  for (const e of entries) if (!hasRef(e.p.kind)) decodeLane(e);
-  for (const e of entries) if (hasRef(e.p.kind)) decodeLane(e);
+  for (const e of entries) if (!hasRef(e.p.kind)) decodeChannel(e);
+  for (const e of entries) if (hasRef(e.p.kind)) decodeChannel(e);
 
   const interleave = (first: number, width: number) => {
     const out = new Float32Array(n * width);
     const u = new Uint32Array(out.buffer);
     for (let j = 0; j < width; j++) {
-      const lane = lanes.get(first + j)!;
-      for (let t = 0; t < n; t++) u[t * width + j] = lane[t];
+      const channel = channels.get(first + j)!;
+      for (let t = 0; t < n; t++) u[t * width + j] = channel[t];
     }
     return out;
   };
-  const f32 = (id: number) => new Float32Array(lanes.get(id)!.buffer);
-  const flagLane = lanes.get(ids.flags)!;
+  const f32 = (id: number) => new Float32Array(channels.get(id)!.buffer);
+  const flagChannel = channels.get(ids.flags)!;
   const flags = new Uint8Array(n);
   for (let t = 0; t < n; t++) {
-    if (flagLane[t] > 0xff) throw new Error(`${what}: flags[${t}] is ${flagLane[t]}, more than a byte`);
-    flags[t] = flagLane[t];
+    if (flagChannel[t] > 0xff) throw new Error(`${what}: flags[${t}] is ${flagChannel[t]}, more than a byte`);
+    flags[t] = flagChannel[t];
   }
   const extras: Record<string, Float32Array> = {};
   extraNames.forEach((name, i) => {
-    if (lanes.has(ids.extra(i))) extras[name] = f32(ids.extra(i));
+    if (channels.has(ids.extra(i))) extras[name] = f32(ids.extra(i));
   });
   return {
     episode,
@@ -424,9 +424,9 @@ export function decodePacked(bytes: Uint8Array, D: number, A: number, extraNames
     state: interleave(0, D),
     q: interleave(D, A),
     reward: f32(ids.reward),
-    action: lanes.get(ids.action)!,
+    action: channels.get(ids.action)!,
     flags,
-    epsilon: lanes.has(ids.epsilon) ? f32(ids.epsilon) : null,
+    epsilon: channels.has(ids.epsilon) ? f32(ids.epsilon) : null,
     extras,
     weights,
   };

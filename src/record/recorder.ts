@@ -29,7 +29,7 @@ export type RecorderHeader = Omit<Header, 'version' | 'extras' | 'run'> & {
 export interface RecorderOptions {
   /** Steps per step block (default 4096). */
   blockSize?: number;
-  /** Pack each block as predicted lanes with Rice codes (SPEC.md §5.2, a version-2 file): 0.4–0.7× the raw size. */
+  /** Pack each block as predicted channels with Rice codes (SPEC.md §5.2, a version-2 file): 0.4–0.7× the raw size. */
   compress?: boolean;
 }
 

@@ -148,24 +148,24 @@ describe('the first step block of that file, decoded independently', () => {
     column('tdError', 'f32', [4], expected.tdError);
   });
 
-  it('writes a packed step block (SPEC §5.2) whose lanes decode by the SPEC alone to the same values', () => {
+  it('writes a packed step block (SPEC §5.2) whose channels decode by the SPEC alone to the same values', () => {
     const block = decode(walkFrames(recordRover(true).bytes)[1].payload);
     expect(block).toBeInstanceOf(Uint8Array);
     const packed = decodePackedBySpec(block as Uint8Array, 4, 2, 3, 1);
     expect(packed.place).toEqual({ episode: 0, firstStep: 0, n: 4 });
     expect(packed.weights).toEqual([[0, '', '']]);
-    // Lanes: position 0, velocity 1, Q 2–4, reward 5, action 6, flags 7, ε 8, tdError 9 (D = 2, A = 3).
-    expect([...packed.lanes.keys()].sort((a, b) => a - b)).toEqual([0, 1, 2, 3, 4, 5, 6, 7, 8, 9]);
+    // Channels: position 0, velocity 1, Q 2–4, reward 5, action 6, flags 7, ε 8, tdError 9 (D = 2, A = 3).
+    expect([...packed.channels.keys()].sort((a, b) => a - b)).toEqual([0, 1, 2, 3, 4, 5, 6, 7, 8, 9]);
     const f32Bytes = (...ids: number[]) => {
       const width = ids.length;
       const out = new Uint32Array(4 * width);
-      ids.forEach((id, j) => packed.lanes.get(id)!.forEach((v, t) => (out[t * width + j] = v)));
+      ids.forEach((id, j) => packed.channels.get(id)!.forEach((v, t) => (out[t * width + j] = v)));
       return bytesOf(out);
     };
     expect(f32Bytes(0, 1)).toEqual(expected.state);
-    expect(Uint8Array.from(packed.lanes.get(6)!)).toEqual(expected.action);
+    expect(Uint8Array.from(packed.channels.get(6)!)).toEqual(expected.action);
     expect(f32Bytes(5)).toEqual(expected.reward);
-    expect(Uint8Array.from(packed.lanes.get(7)!)).toEqual(expected.flags);
+    expect(Uint8Array.from(packed.channels.get(7)!)).toEqual(expected.flags);
     expect(f32Bytes(2, 3, 4)).toEqual(expected.q);
     expect(f32Bytes(8)).toEqual(expected.epsilon);
     expect(f32Bytes(9)).toEqual(expected.tdError);

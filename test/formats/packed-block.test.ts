@@ -5,7 +5,7 @@
  */
 import { describe, expect, it } from 'vitest';
 import { BitReader, BitWriter, RICE_ESCAPE } from '../../formats/bitstream.ts';
-import { Predict, reconstruct, residuals, type Predictor } from '../../formats/lanes.ts';
+import { Predict, reconstruct, residuals, type Predictor } from '../../formats/channels.ts';
 import { decodePacked, encodePacked, type PackedColumns } from '../../formats/packed-block.ts';
 import type { WeightsRun } from '../../formats/types.ts';
 import { CART_POLE_PARAMS, cartPoleDerivatives, eulerStep } from '../../src/envs/cartpole.ts';
@@ -15,7 +15,7 @@ import { seededRandom } from './seeded-bytes.ts';
 const patterns = (...bits: number[]) => Uint32Array.from(bits);
 const asBits = (f: Float32Array) => new Uint32Array(f.buffer, f.byteOffset, f.length);
 
-/** Patterns a float lane must carry unchanged: NaN payloads, signalling NaN, ±0, ±Infinity, subnormals, extremes. */
+/** Patterns a float channel must carry unchanged: NaN payloads, signalling NaN, ±0, ±Infinity, subnormals, extremes. */
 const AWKWARD = patterns(
   0x7fc00000, 0x7fc00001, 0xffffffff, 0x7f800001, 0x00000000, 0x80000000, 0x7f800000, 0xff800000,
   0x00000001, 0x807fffff, 0x7f7fffff, 0xff7fffff, 0x3f800000, 0x3f800001, 0xbf800000, 0x00800000,
@@ -29,7 +29,7 @@ const KINDS: [string, Predictor][] = [
   ['beside', { kind: Predict.Beside, ref: 0, c: 0 }],
 ];
 
-describe('a lane predicted and rebuilt', () => {
+describe('a channel predicted and rebuilt', () => {
   const random = seededRandom(99);
   const noise = Uint32Array.from({ length: 64 }, () => Math.floor(random() * 2 ** 32));
   const x = Uint32Array.from([...AWKWARD, ...noise, ...AWKWARD.slice().reverse()]);
@@ -152,7 +152,7 @@ describe('a packed block', () => {
     const c = trolleyColumns(200);
     const bytes = encodePacked(c);
     const { table } = decodePackedBySpec(bytes, c.n, 4, 2);
-    // Position (lane 0) from velocity (lane 1), angle (lane 2) from angular velocity (lane 3), c = τ
+    // Position (channel 0) from velocity (channel 1), angle (channel 2) from angular velocity (channel 3), c = τ
     // (to the float32 rounding of the stored values, which the fit may match a hair better).
     expect(table.get(0)).toEqual([Predict.IntegratePrevious, 1, expect.closeTo(CART_POLE_PARAMS.tau, 8), expect.any(Number)]);
     expect(table.get(2)).toEqual([Predict.IntegratePrevious, 3, expect.closeTo(CART_POLE_PARAMS.tau, 8), expect.any(Number)]);
@@ -169,9 +169,9 @@ describe('a packed block', () => {
     const bytes = encodePacked(c);
     const spec = decodePackedBySpec(bytes, c.n, 4, 2);
     const state = new Uint32Array(c.n * 4);
-    for (let d = 0; d < 4; d++) spec.lanes.get(d)!.forEach((v, t) => (state[t * 4 + d] = v));
+    for (let d = 0; d < 4; d++) spec.channels.get(d)!.forEach((v, t) => (state[t * 4 + d] = v));
     expect(state).toEqual(asBits(c.state));
-    expect(Uint32Array.from(spec.lanes.get(6)!)).toEqual(asBits(c.reward));
+    expect(Uint32Array.from(spec.channels.get(6)!)).toEqual(asBits(c.reward));
   });
 
   it.each([1, 2, 3])('round-trips a block of %i rows', (n) => {
@@ -226,12 +226,12 @@ describe('a damaged packed block', () => {
   const c = trolleyColumns(40);
   const bytes = encodePacked(c);
   const decode = (b: Uint8Array) => () => decodePacked(b, 4, 2, [], 1 << 30);
-  // Hand-made binaries for D = 2, A = 1 (lanes 0–1 state, 2 Q, 3 reward, 4 action, 5 flags):
-  // layout 1, episode 0, firstStep 0, N = 1, no runs, no ε or extras, then the lane table.
+  // Hand-made binaries for D = 2, A = 1 (channels 0–1 state, 2 Q, 3 reward, 4 action, 5 flags):
+  // layout 1, episode 0, firstStep 0, N = 1, no runs, no ε or extras, then the channel table.
   const handMade = (...table: number[]) => () => decodePacked(Uint8Array.from([1, 0, 0, 1, 0, 0, ...table]), 2, 1, [], 1 << 20);
 
-  it('names the lane whose codes end early when the binary is cut short', () => {
-    expect(decode(bytes.subarray(0, bytes.length - 8))).toThrow(/step block \(packed\), lane \d+: bit stream ends early/);
+  it('names the channel whose codes end early when the binary is cut short', () => {
+    expect(decode(bytes.subarray(0, bytes.length - 8))).toThrow(/step block \(packed\), channel \d+: bit stream ends early/);
   });
 
   it('refuses an unknown layout', () => {
@@ -244,19 +244,19 @@ describe('a damaged packed block', () => {
     expect(() => decodePacked(bytes, 4, 2, [], 1000)).toThrow(/need more memory than allowed/);
   });
 
-  it('refuses a lane that reads a lane predicted from another, or an integer lane', () => {
-    // Lane 0 beside lane 1 (4·33 = 132, ref 1) while lane 1 is beside lane 0.
-    expect(handMade(132, 1, 132, 0, 0, 0, 0, 0)).toThrow('step block (packed), lane 0: refers to lane 1, which is not a float lane of this block predicted on its own');
-    // Lane 2 (Q) beside lane 4 (the action).
-    expect(handMade(0, 0, 132, 4, 0, 0, 0)).toThrow('step block (packed), lane 2: refers to lane 4, which is not a float lane of this block predicted on its own');
+  it('refuses a channel that reads a channel predicted from another, or an integer channel', () => {
+    // Channel 0 beside channel 1 (4·33 = 132, ref 1) while channel 1 is beside channel 0.
+    expect(handMade(132, 1, 132, 0, 0, 0, 0, 0)).toThrow('step block (packed), channel 0: refers to channel 1, which is not a float channel of this block predicted on its own');
+    // Channel 2 (Q) beside channel 4 (the action).
+    expect(handMade(0, 0, 132, 4, 0, 0, 0)).toThrow('step block (packed), channel 2: refers to channel 4, which is not a float channel of this block predicted on its own');
   });
 
-  it('refuses an unknown predictor and a computed prediction of an integer lane', () => {
-    expect(handMade(5 * 33)).toThrow('step block (packed), lane 0: predictor 5 is unknown');
-    expect(handMade(0, 0, 0, 0, 33)).toThrow('step block (packed), lane 4: an integer lane is predicted only by its previous value');
+  it('refuses an unknown predictor and a computed prediction of an integer channel', () => {
+    expect(handMade(5 * 33)).toThrow('step block (packed), channel 0: predictor 5 is unknown');
+    expect(handMade(0, 0, 0, 0, 33)).toThrow('step block (packed), channel 4: an integer channel is predicted only by its previous value');
   });
 
-  it('refuses a lane table cut short', () => {
-    expect(handMade(0, 0)).toThrow('step block (packed), lane 2: ends early');
+  it('refuses a channel table cut short', () => {
+    expect(handMade(0, 0)).toThrow('step block (packed), channel 2: ends early');
   });
 });

@@ -7,9 +7,9 @@
 export interface SpecPacked {
   place: { episode: number; firstStep: number; n: number };
   weights: [number, string, string][];
-  /** Lane id → the lane's N values (u32 patterns for float lanes, numbers for integer lanes). */
-  lanes: Map<number, number[]>;
-  /** Lane id → [kind, ref, c, k], as the table says. */
+  /** Channel id → the channel's N values (u32 patterns for float channels, numbers for integer channels). */
+  channels: Map<number, number[]>;
+  /** Channel id → [kind, ref, c, k], as the table says. */
   table: Map<number, [number, number | null, number | null, number]>;
 }
 
@@ -26,10 +26,10 @@ const valueOf = (p: number) => {
 /** F(z): binary32 rounding of a binary64 result, every NaN as 0x7FC00000. */
 const F = (z: number) => (Number.isNaN(z) ? 0x7fc00000 : pattern(Math.fround(z)));
 
-/** `D`, `A` and the header's extras count E say which lane is which. */
+/** `D`, `A` and the header's extras count E say which channel is which. */
 export function decodePackedBySpec(bytes: Uint8Array, n: number, D: number, A: number, extras = 0): SpecPacked {
-  const laneAction = D + A + 1;
-  const laneFlags = D + A + 2;
+  const channelAction = D + A + 1;
+  const channelFlags = D + A + 2;
   let pos = 0;
   const u8 = () => bytes[pos++];
   const varint = () => {
@@ -63,11 +63,11 @@ export function decodePackedBySpec(bytes: Uint8Array, n: number, D: number, A: n
   }
   const present = bytes.subarray(pos, (pos += Math.ceil((1 + extras) / 8)));
   const bit = (j: number) => (present[Math.floor(j / 8)] >> j % 8) & 1;
-  const laneIds = Array.from({ length: D + A + 3 }, (_, i) => i);
-  if (bit(0)) laneIds.push(D + A + 3);
-  for (let i = 0; i < extras; i++) if (bit(1 + i)) laneIds.push(D + A + 4 + i);
+  const channelIds = Array.from({ length: D + A + 3 }, (_, i) => i);
+  if (bit(0)) channelIds.push(D + A + 3);
+  for (let i = 0; i < extras; i++) if (bit(1 + i)) channelIds.push(D + A + 4 + i);
   const table = new Map<number, [number, number | null, number | null, number]>();
-  for (const lane of laneIds) {
+  for (const channel of channelIds) {
     const code = u8();
     const kind = Math.floor(code / 33);
     const ref = kind >= 2 ? varint() : null;
@@ -76,23 +76,23 @@ export function decodePackedBySpec(bytes: Uint8Array, n: number, D: number, A: n
       c = new DataView(bytes.buffer, bytes.byteOffset + pos, 4).getFloat32(0, true);
       pos += 4;
     }
-    table.set(lane, [kind, ref, c, code % 33]);
+    table.set(channel, [kind, ref, c, code % 33]);
   }
-  const order = [...laneIds.filter((l) => table.get(l)![0] <= 1), ...laneIds.filter((l) => table.get(l)![0] >= 2)];
+  const order = [...channelIds.filter((l) => table.get(l)![0] <= 1), ...channelIds.filter((l) => table.get(l)![0] >= 2)];
 
   let bits = '';
   for (let i = pos; i < bytes.length; i++) bits += bytes[i].toString(2).padStart(8, '0');
   let at = 0;
   const take = (count: number) => (count === 0 ? 0 : parseInt(bits.slice(at, (at += count)), 2));
 
-  const lanes = new Map<number, number[]>();
-  for (const lane of order) {
-    const [kind, ref, c, k] = table.get(lane)!;
-    const y = ref === null ? null : lanes.get(ref)!;
+  const channels = new Map<number, number[]>();
+  for (const channel of order) {
+    const [kind, ref, c, k] = table.get(channel)!;
+    const y = ref === null ? null : channels.get(ref)!;
     const v: number[] = [];
     for (let t = 0; t < n; t++) {
-      if (t === 0 && kind <= 3 && lane !== laneAction && lane !== laneFlags) {
-        v.push(take(32)); // a float lane's first value, written whole
+      if (t === 0 && kind <= 3 && channel !== channelAction && channel !== channelFlags) {
+        v.push(take(32)); // a float channel's first value, written whole
         continue;
       }
       let q = 0;
@@ -116,7 +116,7 @@ export function decodePackedBySpec(bytes: Uint8Array, n: number, D: number, A: n
       else p = y![t];
       v.push(Number(BigInt.asUintN(32, BigInt(p) + BigInt(d))));
     }
-    lanes.set(lane, v);
+    channels.set(channel, v);
   }
-  return { place, weights, lanes, table };
+  return { place, weights, channels, table };
 }

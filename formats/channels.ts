@@ -1,7 +1,7 @@
 /**
- * Lanes and their predictors, for packed step blocks (SPEC.md §5.2). A lane is one value per row:
+ * Channels and their predictors, for packed step blocks (SPEC.md §5.2). A channel is one value per row:
  * one state dimension, one action's Q, the reward, ε, an extra column (f32, handled as their 32
- * bits), or the action or the flags (unsigned integers). Each lane is coded as the residual between
+ * bits), or the action or the flags (unsigned integers). Each channel is coded as the residual between
  * every value and a prediction made from values a reader already has, so that smooth trajectories
  * cost a few bits a value instead of 32.
  *
@@ -29,7 +29,7 @@ export const enum Predict {
 
 export interface Predictor {
   kind: Predict;
-  /** The lane y, for the kinds that read another lane. */
+  /** The channel y, for the kinds that read another channel. */
   ref: number;
   /** The coefficient c of the integrating kinds. */
   c: number;
@@ -70,8 +70,8 @@ function unzigzag(z: number): number {
 }
 
 /**
- * The prediction of row t, as a bit pattern. `x` holds the lane's own bits (rows before t are
- * final), `xf` the same bits as float32; `y`/`yf` the reference lane, complete.
+ * The prediction of row t, as a bit pattern. `x` holds the channel's own bits (rows before t are
+ * final), `xf` the same bits as float32; `y`/`yf` the reference channel, complete.
  */
 function predictAt(p: Predictor, t: number, x: Uint32Array, xf: Float32Array, y: Uint32Array | null, yf: Float32Array | null): number {
   switch (p.kind) {
@@ -88,11 +88,11 @@ function predictAt(p: Predictor, t: number, x: Uint32Array, xf: Float32Array, y:
   }
 }
 
-/** Residuals of rows 0 … rows−1 of lane x under a predictor, into `out`. */
+/** Residuals of rows 0 … rows−1 of channel x under a predictor, into `out`. */
 export function residuals(p: Predictor, x: Uint32Array, y: Uint32Array | null, rows: number, out: Uint32Array): void {
   const xf = new Float32Array(x.buffer, x.byteOffset, x.length);
   const yf = y ? new Float32Array(y.buffer, y.byteOffset, y.length) : null;
-  // The common kinds get their own loops: this runs for every lane of every block written.
+  // The common kinds get their own loops: this runs for every channel of every block written.
   if (p.kind === Predict.Previous) {
     let prev = 0;
     for (let t = 0; t < rows; t++) {
@@ -104,7 +104,7 @@ export function residuals(p: Predictor, x: Uint32Array, y: Uint32Array | null, r
   for (let t = 0; t < rows; t++) out[t] = zigzag((x[t] - predictAt(p, t, x, xf, y, yf)) | 0);
 }
 
-/** The inverse of `residuals`: fills lane x row by row from its residuals (y must be complete). */
+/** The inverse of `residuals`: fills channel x row by row from its residuals (y must be complete). */
 export function reconstruct(p: Predictor, r: Uint32Array, y: Uint32Array | null, x: Uint32Array): void {
   const xf = new Float32Array(x.buffer, x.byteOffset, x.length);
   const yf = y ? new Float32Array(y.buffer, y.byteOffset, y.length) : null;
